@@ -1,0 +1,65 @@
+//! Where the engine's weights come from.
+
+use super::activation::quantise;
+use super::matvec::matvec;
+use crate::image::dims::Dims;
+use crate::image::format::Role;
+use crate::image::views::Floats;
+use crate::Model;
+
+/// A source of model weights that [`step`](super::recurrence::step) can run on.
+///
+/// The int8 [`Model`] implements it; the workstation's float engine does too, so both run
+/// the very same recurrence and differ only in their matrix products.
+pub trait Weights {
+    /// The model's dimensions.
+    fn dims(&self) -> &Dims;
+
+    /// Writes the embedding of `byte` into `out` (`[D]`).
+    fn embed(&self, byte: u8, out: &mut [f32]);
+
+    /// A float tensor of block `block` (`Norm`, `Conv`, `ConvBias`, `Step`, `StepBias`,
+    /// `Decay` as `A = -exp(decay)`, `Skip`), or `final_norm` with [`Role::FinalNorm`].
+    fn floats(&self, block: usize, role: Role) -> Floats<'_>;
+
+    /// `out = W · input` for the matrix `role` of block `block` (`Expand`, `Select`,
+    /// `Contract`), or the output head with [`Role::Head`]. `act` is scratch for the
+    /// quantised input (at least `input.len()` elements).
+    fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]);
+}
+
+impl Weights for Model<'_> {
+    fn dims(&self) -> &Dims {
+        Model::dims(self)
+    }
+
+    fn embed(&self, byte: u8, out: &mut [f32]) {
+        let m = self.byte_embed();
+        let row = m.row(byte as usize);
+        let scales = m.row_scales(byte as usize);
+        let group = m.group();
+        for (c, (o, &w)) in out.iter_mut().zip(row).enumerate() {
+            let s = scales.get(c.checked_div(group).unwrap_or(0));
+            *o = (w as i8) as f32 * s;
+        }
+    }
+
+    fn floats(&self, block: usize, role: Role) -> Floats<'_> {
+        if role == Role::FinalNorm {
+            self.final_norm()
+        } else {
+            self.block_floats(block, role)
+        }
+    }
+
+    fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]) {
+        let m = if role == Role::Head {
+            self.head()
+        } else {
+            self.block_matrix(block, role)
+        };
+        let act = act.get_mut(..input.len()).unwrap_or(&mut []);
+        let scale = quantise(input, act);
+        matvec(&m, act, scale, out);
+    }
+}

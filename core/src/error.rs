@@ -1,0 +1,160 @@
+//! The errors of `inkling-core`. Each names the place at fault.
+
+use core::fmt;
+
+/// Everything that can go wrong in `inkling-core`.
+///
+/// ```
+/// use inkling_core::{Error, Model};
+/// let err = Model::from_bytes(b"not an image").unwrap_err();
+/// assert!(matches!(err, Error::Truncated { .. }));
+/// assert!(err.to_string().contains("image"));
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Error {
+    /// The image is shorter than its header or its header says it is.
+    Truncated {
+        /// Bytes the image needs.
+        needed: usize,
+        /// Bytes given.
+        actual: usize,
+    },
+    /// The first four bytes are not `INKL`.
+    BadMagic,
+    /// The image's major version is not one this reader understands.
+    UnsupportedVersion {
+        /// Major version in the image.
+        major: u16,
+        /// Minor version in the image.
+        minor: u16,
+    },
+    /// The image length field disagrees with the bytes given.
+    LengthMismatch {
+        /// Length written in the header.
+        header: usize,
+        /// Bytes given.
+        actual: usize,
+    },
+    /// The CRC-32 at the end of the image does not match its contents.
+    BadChecksum {
+        /// Checksum stored in the image.
+        stored: u32,
+        /// Checksum computed over the image.
+        computed: u32,
+    },
+    /// A header field is out of its documented range.
+    BadHeader {
+        /// The field's name.
+        field: &'static str,
+        /// Byte offset of the field in the image.
+        offset: usize,
+    },
+    /// A tensor table entry is wrong.
+    BadTensor {
+        /// Index of the entry in the tensor table.
+        index: usize,
+        /// What is wrong with it.
+        problem: TensorProblem,
+        /// Byte offset of the entry in the image.
+        offset: usize,
+    },
+    /// A caller-provided buffer is smaller than the model needs.
+    BufferTooSmall {
+        /// Which buffer.
+        buffer: &'static str,
+        /// Elements needed.
+        needed: usize,
+        /// Elements given.
+        actual: usize,
+    },
+    /// A text or word is longer than the fixed capacity that holds it.
+    CapacityExceeded {
+        /// Which buffer.
+        buffer: &'static str,
+        /// Its capacity.
+        capacity: usize,
+    },
+}
+
+/// What is wrong with a tensor table entry (see [`Error::BadTensor`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum TensorProblem {
+    /// The role or block is not the one the canonical order puts here.
+    UnexpectedRole,
+    /// The element or scale type is not allowed for this role.
+    BadType,
+    /// Rows or columns disagree with the model dimensions.
+    BadShape,
+    /// The payload is not 16-byte aligned.
+    Misaligned,
+    /// The payload lies outside the image or overlaps the header.
+    OutOfBounds,
+    /// A float value (weight or scale) is NaN or infinite.
+    NotFinite,
+    /// A reserved field is not zero.
+    Reserved,
+}
+
+impl fmt::Display for TensorProblem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            TensorProblem::UnexpectedRole => "role or block out of canonical order",
+            TensorProblem::BadType => "element or scale type not allowed for this role",
+            TensorProblem::BadShape => "shape disagrees with the model dimensions",
+            TensorProblem::Misaligned => "payload not 16-byte aligned",
+            TensorProblem::OutOfBounds => "payload outside the image",
+            TensorProblem::NotFinite => "value is NaN or infinite",
+            TensorProblem::Reserved => "reserved field not zero",
+        })
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Error::Truncated { needed, actual } => {
+                write!(f, "image truncated: needs {needed} bytes, has {actual}")
+            }
+            Error::BadMagic => f.write_str("image magic at byte 0 is not \"INKL\""),
+            Error::UnsupportedVersion { major, minor } => write!(
+                f,
+                "image version {major}.{minor} at byte 4 is not supported (this reader reads major {})",
+                crate::image::format::MAJOR_VERSION
+            ),
+            Error::LengthMismatch { header, actual } => write!(
+                f,
+                "image length at byte 8 says {header} bytes, but {actual} were given"
+            ),
+            Error::BadChecksum { stored, computed } => write!(
+                f,
+                "image CRC-32 at the end is {stored:#010x}, contents give {computed:#010x}"
+            ),
+            Error::BadHeader { field, offset } => {
+                write!(f, "image header field `{field}` at byte {offset} is out of range")
+            }
+            Error::BadTensor {
+                index,
+                problem,
+                offset,
+            } => write!(
+                f,
+                "image tensor table entry {index} at byte {offset}: {problem}"
+            ),
+            Error::BufferTooSmall {
+                buffer,
+                needed,
+                actual,
+            } => write!(
+                f,
+                "buffer `{buffer}` holds {actual} elements, the model needs {needed}"
+            ),
+            Error::CapacityExceeded { buffer, capacity } => {
+                write!(f, "`{buffer}` is full (capacity {capacity})")
+            }
+        }
+    }
+}
+
+impl core::error::Error for Error {}

@@ -1,0 +1,134 @@
+//! Model dimensions and the buffer sizes that follow from them.
+
+use super::format::{Role, TENSORS_PER_BLOCK, VOCAB};
+
+/// The dimensions of a model, as the image header declares them.
+///
+/// Every buffer size the engine needs is a function of these, so firmware can size static
+/// buffers for a model before it is flashed.
+///
+/// ```
+/// use inkling_core::Dims;
+/// let dims = Dims { d_model: 96, d_inner: 128, d_state: 8, d_conv: 4, dt_rank: 6,
+///                   blocks: 3, tied_head: true, norm_eps: 1e-5, group: 0 };
+/// // conv window (K-1) and SSM state (N) per channel, per block, in f32
+/// assert_eq!(dims.state_len(), 3 * 128 * (3 + 8));
+/// assert_eq!(dims.state_bytes(), 4 * dims.state_len());
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Dims {
+    /// Width of the residual stream (D).
+    pub d_model: usize,
+    /// Width inside a block (I).
+    pub d_inner: usize,
+    /// State size per channel (N).
+    pub d_state: usize,
+    /// Convolution width (K).
+    pub d_conv: usize,
+    /// Rank of the step projection (R).
+    pub dt_rank: usize,
+    /// Number of blocks (L).
+    pub blocks: usize,
+    /// Whether the output head is `byte_embed` itself.
+    pub tied_head: bool,
+    /// The epsilon of every RMS norm.
+    pub norm_eps: f32,
+    /// Columns per int8 scale (0: one scale per row).
+    pub group: usize,
+}
+
+impl Dims {
+    /// f32 elements of one engine state: per block, the convolution window
+    /// `[I, K-1]` and the SSM state `[I, N]`. It never grows with the text.
+    pub const fn state_len(&self) -> usize {
+        self.blocks * self.d_inner * (self.d_conv - 1 + self.d_state)
+    }
+
+    /// Bytes of one engine state.
+    pub const fn state_bytes(&self) -> usize {
+        4 * self.state_len()
+    }
+
+    /// f32 elements of the scratch the engine needs for one step (shared by all states):
+    /// residual and normalised residual `[D]` each, `[x; z]` `[2I]`, `[r; B; C]` `[R + 2N]`,
+    /// step sizes and block output `[I]` each, and the logits `[256]`.
+    pub const fn work_len(&self) -> usize {
+        2 * self.d_model
+            + 2 * self.d_inner
+            + self.dt_rank
+            + 2 * self.d_state
+            + 2 * self.d_inner
+            + VOCAB
+    }
+
+    /// i16 elements of the quantised-activation scratch: the widest matrix input.
+    pub const fn act_len(&self) -> usize {
+        if self.d_model > self.d_inner {
+            self.d_model
+        } else {
+            self.d_inner
+        }
+    }
+
+    /// Bytes of scratch (work and activations together).
+    pub const fn scratch_bytes(&self) -> usize {
+        4 * self.work_len() + 2 * self.act_len()
+    }
+
+    /// Number of tensors in an image of these dimensions.
+    pub const fn tensor_count(&self) -> usize {
+        1 + TENSORS_PER_BLOCK * self.blocks + 1 + if self.tied_head { 0 } else { 1 }
+    }
+
+    /// Index in the tensor table of a block tensor.
+    pub(crate) const fn block_index(block: usize, slot: usize) -> usize {
+        1 + block * TENSORS_PER_BLOCK + slot
+    }
+
+    /// `(rows, cols)` of the tensor with this role.
+    ///
+    /// ```
+    /// use inkling_core::{Dims, image::format::Role};
+    /// # let dims = Dims { d_model: 96, d_inner: 128, d_state: 8, d_conv: 4, dt_rank: 6,
+    /// #                   blocks: 3, tied_head: true, norm_eps: 1e-5, group: 0 };
+    /// assert_eq!(dims.shape(Role::Select), (6 + 2 * 8, 128));
+    /// ```
+    pub const fn shape(&self, role: Role) -> (usize, usize) {
+        let (d, i, n, k, r) = (
+            self.d_model,
+            self.d_inner,
+            self.d_state,
+            self.d_conv,
+            self.dt_rank,
+        );
+        match role {
+            Role::ByteEmbed | Role::Head => (VOCAB, d),
+            Role::FinalNorm | Role::Norm => (d, 1),
+            Role::Expand => (2 * i, d),
+            Role::Conv => (i, k),
+            Role::ConvBias | Role::StepBias | Role::Skip => (i, 1),
+            Role::Select => (r + 2 * n, i),
+            Role::Step => (i, r),
+            Role::Decay => (i, n),
+            Role::Contract => (d, i),
+        }
+    }
+
+    /// Scales per row of an int8 matrix with `cols` columns.
+    pub const fn scales_per_row(&self, cols: usize) -> usize {
+        if self.group == 0 {
+            1
+        } else {
+            cols.div_ceil(self.group)
+        }
+    }
+
+    /// Multiply-accumulates of int8 weights in one step (all matrix-vector products).
+    pub const fn macs_per_step(&self) -> usize {
+        let per_block = 2 * self.d_inner * self.d_model
+            + (self.dt_rank + 2 * self.d_state) * self.d_inner
+            + self.d_model * self.d_inner;
+        self.blocks * per_block + VOCAB * self.d_model
+    }
+}

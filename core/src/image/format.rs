@@ -1,0 +1,362 @@
+//! The image format, version 1.0, byte by byte.
+//!
+//! All integers are little-endian. Offsets are from the first byte of the image.
+//!
+//! ## Header (64 bytes)
+//! | offset | size | field | rule |
+//! |---|---|---|---|
+//! | 0 | 4 | magic | `b"INKL"` |
+//! | 4 | 2 | major version | `1`; a reader rejects any other major |
+//! | 6 | 2 | minor version | any; minor versions only add what old readers may ignore |
+//! | 8 | 4 | image length | total bytes, including the trailing CRC |
+//! | 12 | 4 | `d_model` (D) | 1 ..= [`MAX_D_MODEL`] |
+//! | 16 | 4 | `d_inner` (I) | 1 ..= [`MAX_D_INNER`] |
+//! | 20 | 4 | `d_state` (N) | 1 ..= [`MAX_D_STATE`] |
+//! | 24 | 4 | `d_conv` (K) | 1 ..= [`MAX_D_CONV`] |
+//! | 28 | 4 | `dt_rank` (R) | 1 ..= [`MAX_DT_RANK`] |
+//! | 32 | 4 | blocks (L) | 1 ..= [`MAX_BLOCKS`] |
+//! | 36 | 4 | flags | bit 0: head tied to `byte_embed`; other bits zero |
+//! | 40 | 4 | `norm_eps` | f32, finite, > 0 |
+//! | 44 | 4 | group size G | 0 (one scale per row) or 1 ..= 65535 columns per scale |
+//! | 48 | 4 | tensor count T | `1 + 10·L + 1 + (untied ? 1 : 0)` |
+//! | 52 | 4 | table offset | 64 |
+//! | 56 | 8 | reserved | zero |
+//!
+//! ## Tensor table (T entries of 24 bytes, from byte 64)
+//! | offset | size | field |
+//! |---|---|---|
+//! | 0 | 2 | role ([`Role`] code) |
+//! | 2 | 2 | block index (0 for whole-model tensors) |
+//! | 4 | 1 | element type: 0 f32, 1 f16 (IEEE 754 binary16), 2 int8 |
+//! | 5 | 1 | scale type: 0 none, 1 f32, 2 f16 (int8 tensors only, and always) |
+//! | 6 | 2 | reserved, zero |
+//! | 8 | 4 | rows |
+//! | 12 | 4 | columns (1 for vectors) |
+//! | 16 | 4 | payload offset (multiple of [`ALIGN`]) |
+//! | 20 | 4 | scales offset (multiple of [`ALIGN`]; 0 without scales) |
+//!
+//! Entries come in the canonical order: `byte_embed`, then for each block `0..L` the ten
+//! block roles in the order of [`Role::BLOCK_ROLES`], then `final_norm`, then `head` if the
+//! head is untied. A reader finds a tensor by arithmetic, never by search.
+//!
+//! ## Payloads
+//! Each starts at a multiple of [`ALIGN`] bytes after the table, so a weight row can be read
+//! with word loads straight from flash. Padding bytes are zero. int8 matrices are row-major,
+//! symmetric (value = weight × scale); scales are row-major too, `ceil(cols / G)` per row
+//! (one per row when G = 0). The decay tensor holds the continuous-time rate
+//! `A = -exp(decay)` in f32, so the device never recomputes the exponential.
+//!
+//! ## Trailer
+//! The last 4 bytes are the CRC-32/ISO-HDLC of every byte before them.
+
+/// The four bytes every image starts with.
+pub const MAGIC: [u8; 4] = *b"INKL";
+/// The major version this reader and writer speak.
+pub const MAJOR_VERSION: u16 = 1;
+/// The minor version this writer writes.
+pub const MINOR_VERSION: u16 = 0;
+/// Size of the fixed header in bytes.
+pub const HEADER_LEN: usize = 64;
+/// Size of one tensor table entry in bytes.
+pub const ENTRY_LEN: usize = 24;
+/// Size of the trailing checksum in bytes.
+pub const CRC_LEN: usize = 4;
+/// Alignment of every payload, in bytes.
+pub const ALIGN: usize = 16;
+/// The vocabulary: one symbol per byte value.
+pub const VOCAB: usize = 256;
+/// Number of tensors each block has.
+pub const TENSORS_PER_BLOCK: usize = 10;
+
+/// Largest `d_model` an image may declare.
+pub const MAX_D_MODEL: u32 = 4096;
+/// Largest `d_inner` an image may declare.
+pub const MAX_D_INNER: u32 = 8192;
+/// Largest `d_state` an image may declare.
+pub const MAX_D_STATE: u32 = 256;
+/// Largest convolution width an image may declare.
+pub const MAX_D_CONV: u32 = 16;
+/// Largest `dt_rank` an image may declare.
+pub const MAX_DT_RANK: u32 = 1024;
+/// Largest number of blocks an image may declare.
+pub const MAX_BLOCKS: u32 = 64;
+/// Largest scale group an image may declare (columns per scale).
+pub const MAX_GROUP: u32 = 65535;
+
+/// Header flag: the output head is `byte_embed` itself.
+pub const FLAG_TIED_HEAD: u32 = 1;
+
+/// What a tensor is. The code is what the tensor table stores.
+///
+/// ```
+/// use inkling_core::image::format::Role;
+/// assert_eq!(Role::from_code(Role::Expand.code()), Some(Role::Expand));
+/// assert_eq!(Role::Expand.name(), "expand");
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Role {
+    /// `byte_embed` [256, D], int8.
+    ByteEmbed,
+    /// `final_norm` [D], float.
+    FinalNorm,
+    /// `head` [256, D], int8 (only when untied).
+    Head,
+    /// `blocks.l.norm` [D], float.
+    Norm,
+    /// `blocks.l.expand` [2I, D], int8.
+    Expand,
+    /// `blocks.l.conv` [I, K], float.
+    Conv,
+    /// `blocks.l.conv_bias` [I], float.
+    ConvBias,
+    /// `blocks.l.select` [R + 2N, I], int8.
+    Select,
+    /// `blocks.l.step` [I, R], float.
+    Step,
+    /// `blocks.l.step_bias` [I], float.
+    StepBias,
+    /// `blocks.l.decay` [I, N], stored as `A = -exp(decay)`, f32.
+    Decay,
+    /// `blocks.l.skip` [I], float.
+    Skip,
+    /// `blocks.l.contract` [D, I], int8.
+    Contract,
+}
+
+impl Role {
+    /// The ten roles of a block, in canonical table order.
+    pub const BLOCK_ROLES: [Role; TENSORS_PER_BLOCK] = [
+        Role::Norm,
+        Role::Expand,
+        Role::Conv,
+        Role::ConvBias,
+        Role::Select,
+        Role::Step,
+        Role::StepBias,
+        Role::Decay,
+        Role::Skip,
+        Role::Contract,
+    ];
+
+    /// The code stored in the tensor table.
+    pub const fn code(self) -> u16 {
+        match self {
+            Role::ByteEmbed => 0,
+            Role::FinalNorm => 1,
+            Role::Head => 2,
+            Role::Norm => 16,
+            Role::Expand => 17,
+            Role::Conv => 18,
+            Role::ConvBias => 19,
+            Role::Select => 20,
+            Role::Step => 21,
+            Role::StepBias => 22,
+            Role::Decay => 23,
+            Role::Skip => 24,
+            Role::Contract => 25,
+        }
+    }
+
+    /// The role with this code, if any.
+    pub fn from_code(code: u16) -> Option<Role> {
+        [Role::ByteEmbed, Role::FinalNorm, Role::Head]
+            .into_iter()
+            .chain(Role::BLOCK_ROLES)
+            .find(|r| r.code() == code)
+    }
+
+    /// The checkpoint schema's name for this role (without the `blocks.l.` prefix).
+    pub const fn name(self) -> &'static str {
+        match self {
+            Role::ByteEmbed => "byte_embed",
+            Role::FinalNorm => "final_norm",
+            Role::Head => "head",
+            Role::Norm => "norm",
+            Role::Expand => "expand",
+            Role::Conv => "conv",
+            Role::ConvBias => "conv_bias",
+            Role::Select => "select",
+            Role::Step => "step",
+            Role::StepBias => "step_bias",
+            Role::Decay => "decay",
+            Role::Skip => "skip",
+            Role::Contract => "contract",
+        }
+    }
+
+    /// Whether this role is an int8 matrix with scales (otherwise it is float).
+    pub const fn is_quantised(self) -> bool {
+        matches!(
+            self,
+            Role::ByteEmbed | Role::Head | Role::Expand | Role::Select | Role::Contract
+        )
+    }
+
+    /// Whether this role belongs to a block (otherwise to the whole model).
+    pub const fn is_block_role(self) -> bool {
+        !matches!(self, Role::ByteEmbed | Role::FinalNorm | Role::Head)
+    }
+}
+
+/// How the values of a tensor are stored.
+///
+/// ```
+/// use inkling_core::image::format::ElementType;
+/// assert_eq!(ElementType::from_code(1), Some(ElementType::F16));
+/// assert_eq!(ElementType::F16.size(), 2);
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ElementType {
+    /// IEEE 754 binary32.
+    F32,
+    /// IEEE 754 binary16.
+    F16,
+    /// Signed 8-bit integer, with scales.
+    Int8,
+}
+
+impl ElementType {
+    /// The code stored in the tensor table.
+    pub const fn code(self) -> u8 {
+        match self {
+            ElementType::F32 => 0,
+            ElementType::F16 => 1,
+            ElementType::Int8 => 2,
+        }
+    }
+
+    /// The element type with this code, if any.
+    pub const fn from_code(code: u8) -> Option<ElementType> {
+        match code {
+            0 => Some(ElementType::F32),
+            1 => Some(ElementType::F16),
+            2 => Some(ElementType::Int8),
+            _ => None,
+        }
+    }
+
+    /// Bytes per element.
+    pub const fn size(self) -> usize {
+        match self {
+            ElementType::F32 => 4,
+            ElementType::F16 => 2,
+            ElementType::Int8 => 1,
+        }
+    }
+}
+
+/// One tensor table entry, decoded.
+///
+/// ```
+/// use inkling_core::image::format::{TensorEntry, Role, ElementType};
+/// let e = TensorEntry { role: Role::Norm, block: 2, element: ElementType::F16, scale: None,
+///                       rows: 96, cols: 1, data_offset: 1024, scales_offset: 0 };
+/// let mut raw = [0u8; 24];
+/// e.encode(&mut raw);
+/// assert_eq!(TensorEntry::decode(&raw), Ok(e));
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TensorEntry {
+    /// What the tensor is.
+    pub role: Role,
+    /// Which block (0 for whole-model tensors).
+    pub block: u16,
+    /// How its values are stored.
+    pub element: ElementType,
+    /// How its scales are stored (int8 only).
+    pub scale: Option<ElementType>,
+    /// Rows.
+    pub rows: u32,
+    /// Columns (1 for a vector).
+    pub cols: u32,
+    /// Offset of the payload in the image.
+    pub data_offset: u32,
+    /// Offset of the scales in the image (0 without scales).
+    pub scales_offset: u32,
+}
+
+/// Why a raw table entry could not be decoded.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EntryDecodeError {
+    /// Unknown role code.
+    Role,
+    /// Unknown element or scale type code.
+    Type,
+    /// A reserved field is not zero.
+    Reserved,
+}
+
+fn u16_at(raw: &[u8; ENTRY_LEN], at: usize) -> u16 {
+    let mut b = [0u8; 2];
+    if let Some(s) = raw.get(at..at + 2) {
+        b.copy_from_slice(s);
+    }
+    u16::from_le_bytes(b)
+}
+
+fn u32_at(raw: &[u8; ENTRY_LEN], at: usize) -> u32 {
+    let mut b = [0u8; 4];
+    if let Some(s) = raw.get(at..at + 4) {
+        b.copy_from_slice(s);
+    }
+    u32::from_le_bytes(b)
+}
+
+impl TensorEntry {
+    /// Writes the entry in its 24-byte table form.
+    pub fn encode(&self, out: &mut [u8; ENTRY_LEN]) {
+        let scale = self.scale.map_or(0, |s| match s {
+            ElementType::F32 => 1,
+            _ => 2,
+        });
+        let fields: [(usize, &[u8]); 9] = [
+            (0, &self.role.code().to_le_bytes()),
+            (2, &self.block.to_le_bytes()),
+            (4, &[self.element.code()]),
+            (5, &[scale]),
+            (6, &[0, 0]),
+            (8, &self.rows.to_le_bytes()),
+            (12, &self.cols.to_le_bytes()),
+            (16, &self.data_offset.to_le_bytes()),
+            (20, &self.scales_offset.to_le_bytes()),
+        ];
+        for (at, bytes) in fields {
+            if let Some(dst) = out.get_mut(at..at + bytes.len()) {
+                dst.copy_from_slice(bytes);
+            }
+        }
+    }
+
+    /// Reads an entry from its 24-byte table form.
+    pub fn decode(raw: &[u8; ENTRY_LEN]) -> Result<TensorEntry, EntryDecodeError> {
+        let role = Role::from_code(u16_at(raw, 0)).ok_or(EntryDecodeError::Role)?;
+        let element = ElementType::from_code(raw[4]).ok_or(EntryDecodeError::Type)?;
+        let scale = match raw[5] {
+            0 => None,
+            1 => Some(ElementType::F32),
+            2 => Some(ElementType::F16),
+            _ => return Err(EntryDecodeError::Type),
+        };
+        if u16_at(raw, 6) != 0 {
+            return Err(EntryDecodeError::Reserved);
+        }
+        Ok(TensorEntry {
+            role,
+            block: u16_at(raw, 2),
+            element,
+            scale,
+            rows: u32_at(raw, 8),
+            cols: u32_at(raw, 12),
+            data_offset: u32_at(raw, 16),
+            scales_offset: u32_at(raw, 20),
+        })
+    }
+}
+
+/// Rounds `n` up to the next multiple of [`ALIGN`], or `None` on overflow.
+pub const fn align_up(n: usize) -> Option<usize> {
+    match n.checked_add(ALIGN - 1) {
+        Some(v) => Some(v / ALIGN * ALIGN),
+        None => None,
+    }
+}

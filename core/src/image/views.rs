@@ -1,0 +1,186 @@
+//! Borrowed, already-validated views of tensor payloads.
+//!
+//! A view never fails: it is built only from ranges the reader has checked, and a read past
+//! its end yields nothing rather than panicking.
+
+use half::f16;
+
+/// A vector or small matrix of floats, stored little-endian in the image or native in memory.
+///
+/// ```
+/// use inkling_core::image::views::Floats;
+/// let native = [1.0f32, -2.5];
+/// let v = Floats::Native(&native);
+/// assert_eq!(v.len(), 2);
+/// assert_eq!(v.get(1), -2.5);
+/// let sum: f32 = v.iter().sum();
+/// assert_eq!(sum, -1.5);
+/// ```
+#[derive(Debug, Clone, Copy)]
+pub enum Floats<'a> {
+    /// IEEE 754 binary32, little-endian bytes.
+    F32Le(&'a [u8]),
+    /// IEEE 754 binary16, little-endian bytes.
+    F16Le(&'a [u8]),
+    /// Native f32 values (the float engine on the workstation).
+    Native(&'a [f32]),
+}
+
+impl<'a> Floats<'a> {
+    /// Number of values.
+    pub fn len(&self) -> usize {
+        match self {
+            Floats::F32Le(b) => b.len() / 4,
+            Floats::F16Le(b) => b.len() / 2,
+            Floats::Native(v) => v.len(),
+        }
+    }
+
+    /// Whether there are no values.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Value `i`, or 0.0 past the end.
+    pub fn get(&self, i: usize) -> f32 {
+        match self {
+            Floats::F32Le(b) => b
+                .as_chunks::<4>()
+                .0
+                .get(i)
+                .map_or(0.0, |&s| f32::from_le_bytes(s)),
+            Floats::F16Le(b) => b
+                .as_chunks::<2>()
+                .0
+                .get(i)
+                .map_or(0.0, |&s| f16::from_le_bytes(s).to_f32()),
+            Floats::Native(v) => v.get(i).copied().unwrap_or(0.0),
+        }
+    }
+
+    /// Values `start..start + len` as a view (empty where out of range).
+    pub fn slice(&self, start: usize, len: usize) -> Floats<'a> {
+        match *self {
+            Floats::F32Le(b) => Floats::F32Le(b.get(4 * start..4 * (start + len)).unwrap_or(&[])),
+            Floats::F16Le(b) => Floats::F16Le(b.get(2 * start..2 * (start + len)).unwrap_or(&[])),
+            Floats::Native(v) => Floats::Native(v.get(start..start + len).unwrap_or(&[])),
+        }
+    }
+
+    /// The values in order.
+    pub fn iter(&self) -> FloatIter<'a> {
+        match *self {
+            Floats::F32Le(b) => FloatIter::F32(b.as_chunks::<4>().0.iter()),
+            Floats::F16Le(b) => FloatIter::F16(b.as_chunks::<2>().0.iter()),
+            Floats::Native(v) => FloatIter::Native(v.iter()),
+        }
+    }
+}
+
+/// Iterator over [`Floats`].
+#[derive(Debug, Clone)]
+pub enum FloatIter<'a> {
+    /// Over binary32 bytes.
+    F32(core::slice::Iter<'a, [u8; 4]>),
+    /// Over binary16 bytes.
+    F16(core::slice::Iter<'a, [u8; 2]>),
+    /// Over native values.
+    Native(core::slice::Iter<'a, f32>),
+}
+
+impl Iterator for FloatIter<'_> {
+    type Item = f32;
+
+    #[inline]
+    fn next(&mut self) -> Option<f32> {
+        match self {
+            FloatIter::F32(c) => c.next().map(|&s| f32::from_le_bytes(s)),
+            FloatIter::F16(c) => c.next().map(|&s| f16::from_le_bytes(s).to_f32()),
+            FloatIter::Native(v) => v.next().copied(),
+        }
+    }
+}
+
+/// An int8 matrix, row-major, with one scale per row or per group of columns.
+///
+/// ```
+/// use inkling_core::image::views::{Floats, QuantMatrix};
+/// let w = [1u8, 2, 0xFF, 4]; // int8 1, 2, -1, 4 as stored bytes
+/// let s = [0.5f32, 0.25];
+/// let m = QuantMatrix::new(&w, Floats::Native(&s), 2, 2, 0);
+/// assert_eq!(m.weight(1, 0), -0.25);
+/// ```
+#[derive(Debug, Clone, Copy)]
+pub struct QuantMatrix<'a> {
+    weights: &'a [u8],
+    scales: Floats<'a>,
+    rows: usize,
+    cols: usize,
+    group: usize,
+}
+
+impl<'a> QuantMatrix<'a> {
+    /// A view over `rows × cols` int8 weights (as bytes) and their scales. `group` is the
+    /// number of columns per scale, 0 for one scale per row.
+    pub fn new(
+        weights: &'a [u8],
+        scales: Floats<'a>,
+        rows: usize,
+        cols: usize,
+        group: usize,
+    ) -> Self {
+        QuantMatrix {
+            weights,
+            scales,
+            rows,
+            cols,
+            group,
+        }
+    }
+
+    /// Rows.
+    pub fn rows(&self) -> usize {
+        self.rows
+    }
+
+    /// Columns.
+    pub fn cols(&self) -> usize {
+        self.cols
+    }
+
+    /// Columns per scale (0: one per row).
+    pub fn group(&self) -> usize {
+        self.group
+    }
+
+    /// The int8 weights of row `r` as stored bytes (empty past the end).
+    #[inline]
+    pub fn row(&self, r: usize) -> &'a [u8] {
+        self.weights
+            .get(r * self.cols..(r + 1) * self.cols)
+            .unwrap_or(&[])
+    }
+
+    /// All weights as stored bytes, row-major.
+    pub fn weights(&self) -> &'a [u8] {
+        self.weights
+    }
+
+    /// The scales of row `r`.
+    #[inline]
+    pub fn row_scales(&self, r: usize) -> Floats<'a> {
+        let per_row = if self.group == 0 {
+            1
+        } else {
+            self.cols.div_ceil(self.group)
+        };
+        self.scales.slice(r * per_row, per_row)
+    }
+
+    /// The dequantised weight at `(r, c)`, 0.0 outside the matrix.
+    pub fn weight(&self, r: usize, c: usize) -> f32 {
+        let w = self.row(r).get(c).map_or(0, |&b| b as i8);
+        let s = self.row_scales(r).get(c.checked_div(self.group).unwrap_or(0));
+        w as f32 * s
+    }
+}
