@@ -75,6 +75,21 @@ pub enum Error {
         /// Its capacity.
         capacity: usize,
     },
+    /// A word list (deny list or lexicon) has an empty line or a line not after the one
+    /// before it (lines must be non-empty and strictly ascending bytewise).
+    BadWordList {
+        /// The line at fault, counted from 1.
+        line: usize,
+        /// Byte offset of its start in the list.
+        offset: usize,
+    },
+    /// A key given for 12-key entry is not a key of the layout, or carries no letters.
+    NotALetterKey {
+        /// Its position in the keys given, counted from 0.
+        position: usize,
+        /// The byte given.
+        byte: u8,
+    },
 }
 
 /// What is wrong with a tensor table entry (see [`Error::BadTensor`]).
@@ -153,6 +168,15 @@ impl fmt::Display for Error {
             Error::CapacityExceeded { buffer, capacity } => {
                 write!(f, "`{buffer}` is full (capacity {capacity})")
             }
+            Error::BadWordList { line, offset } => write!(
+                f,
+                "word list line {line} at byte {offset} is empty or not after the line before it \
+                 (lines must be non-empty and sorted strictly ascending by bytes)"
+            ),
+            Error::NotALetterKey { position, byte } => write!(
+                f,
+                "key {position} (byte {byte:#04x}) is not a letter key of the keypad layout"
+            ),
         }
     }
 }

@@ -35,9 +35,11 @@
 pub mod engine;
 pub mod error;
 pub mod image;
+pub mod session;
 
 pub use engine::buffers::{EngineBuffers, Scratch};
 pub use engine::engine::Engine;
 pub use error::Error;
 pub use image::dims::Dims;
 pub use image::model::Model;
+pub use session::{KeyMap, SearchOptions, Session, Suggestion, Suggestions};

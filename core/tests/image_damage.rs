@@ -31,7 +31,10 @@ fn every_flipped_byte_is_an_error() {
     for at in 0..image.len() {
         let mut damaged = image;
         damaged[at] ^= 0xA5;
-        assert!(Model::from_bytes(&damaged).is_err(), "flip at byte {at} accepted");
+        assert!(
+            Model::from_bytes(&damaged).is_err(),
+            "flip at byte {at} accepted"
+        );
     }
 }
 
@@ -63,12 +66,22 @@ fn bad_checksum_is_named() {
 
 #[test]
 fn dimensions_that_overflow_are_rejected() {
-    for (at, value) in [(12usize, u32::MAX), (16, 1 << 31), (20, 0), (24, 0), (32, 100_000), (44, u32::MAX)] {
+    for (at, value) in [
+        (12usize, u32::MAX),
+        (16, 1 << 31),
+        (20, 0),
+        (24, 0),
+        (32, 100_000),
+        (44, u32::MAX),
+    ] {
         let mut image = tiny_image();
         image[at..at + 4].copy_from_slice(&value.to_le_bytes());
         restamp(&mut image);
         let err = Model::from_bytes(&image).unwrap_err();
-        assert!(matches!(err, Error::BadHeader { offset, .. } if offset == at), "{err}");
+        assert!(
+            matches!(err, Error::BadHeader { offset, .. } if offset == at),
+            "{err}"
+        );
     }
 }
 

@@ -63,3 +63,22 @@ impl Weights for Model<'_> {
         matvec(&m, act, scale, out);
     }
 }
+
+/// A reference to weights is weights too, so a session can borrow a model it does not own.
+impl<T: Weights + ?Sized> Weights for &T {
+    fn dims(&self) -> &Dims {
+        (**self).dims()
+    }
+
+    fn embed(&self, byte: u8, out: &mut [f32]) {
+        (**self).embed(byte, out)
+    }
+
+    fn floats(&self, block: usize, role: Role) -> Floats<'_> {
+        (**self).floats(block, role)
+    }
+
+    fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]) {
+        (**self).matvec(block, role, input, act, out)
+    }
+}

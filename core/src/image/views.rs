@@ -180,7 +180,9 @@ impl<'a> QuantMatrix<'a> {
     /// The dequantised weight at `(r, c)`, 0.0 outside the matrix.
     pub fn weight(&self, r: usize, c: usize) -> f32 {
         let w = self.row(r).get(c).map_or(0, |&b| b as i8);
-        let s = self.row_scales(r).get(c.checked_div(self.group).unwrap_or(0));
+        let s = self
+            .row_scales(r)
+            .get(c.checked_div(self.group).unwrap_or(0));
         w as f32 * s
     }
 }

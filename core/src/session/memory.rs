@@ -1,0 +1,72 @@
+//! The RAM one session needs, known before anything is flashed.
+
+use super::beam_search::{Beam, Candidate};
+use super::beam_slots::Slots;
+use super::suggestion::Suggestion;
+use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
+use crate::image::dims::Dims;
+
+impl Dims {
+    /// f32 elements of the buffer a [`Session`](crate::session::Session) with `k` beams
+    /// takes: `k + 2` engine states (the live state, the snapshot at the last word boundary
+    /// and `k` beams), each followed by its 256 next-byte logits.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS;
+    /// let s = TINY_DIMS.state_len();
+    /// assert_eq!(TINY_DIMS.session_floats(3), (3 + 2) * (s + 256));
+    /// ```
+    pub const fn session_floats(&self, k: usize) -> usize {
+        (k + 2) * Slots::stride(self.state_len())
+    }
+
+    /// Bytes of RAM one session with `k` beams and a history of `history` bytes needs:
+    /// - the states buffer, `4 ·` [`session_floats`](Dims::session_floats)`(k)`;
+    /// - the engine scratch, [`scratch_bytes`](Dims::scratch_bytes);
+    /// - the fixed text buffers in the session: the history and the current word;
+    /// - the search's own lists on the stack while it runs: the beams of two rounds, the
+    ///   candidates and the results, `k` of each.
+    ///
+    /// ```
+    /// use inkling_core::{Dims, image::example::TINY_DIMS};
+    /// let ram = TINY_DIMS.session_bytes(3, 128);
+    /// assert!(ram > 4 * TINY_DIMS.session_floats(3) + TINY_DIMS.scratch_bytes());
+    /// // A model with 3 blocks, I = 128, N = 8, K = 4: the states dominate.
+    /// let dims = Dims { d_model: 96, d_inner: 128, d_state: 8, d_conv: 4, dt_rank: 6,
+    ///                   blocks: 3, tied_head: true, norm_eps: 1e-5, group: 0 };
+    /// assert!(dims.session_bytes(3, 128) < 100 * 1024);
+    /// ```
+    pub const fn session_bytes(&self, k: usize, history: usize) -> usize {
+        4 * self.session_floats(k)
+            + self.scratch_bytes()
+            + history
+            + core::mem::size_of::<WordBuffer>()
+            + search_stack_bytes(k)
+    }
+}
+
+/// Bytes of the lists a search keeps on the stack for `k` beams.
+const fn search_stack_bytes(k: usize) -> usize {
+    use core::mem::size_of;
+    k * (2 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
+        + 3 * k * size_of::<bool>()
+        + MAX_WORD_LEN
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::session::{Session, TextHistory};
+    use crate::Model;
+
+    #[test]
+    fn session_value_is_no_larger_than_its_text_buffers_plus_handles() {
+        // The session value: the text buffers counted in session_bytes, plus the model
+        // handle and the slices into caller buffers (common practice, no source: a bound of
+        // 64 machine words for handles and lengths).
+        let text = core::mem::size_of::<TextHistory<128>>() + core::mem::size_of::<WordBuffer>();
+        let value = core::mem::size_of::<Session<'_, Model<'_>, 3, 128>>();
+        let handles = 64 * core::mem::size_of::<usize>();
+        assert!(value <= text + handles, "{value} > {text} + {handles}");
+    }
+}

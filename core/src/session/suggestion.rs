@@ -1,0 +1,87 @@
+//! What a search is asked for and what it gives back.
+
+use super::word_buffer::Word;
+use super::word_list::WordFilter;
+
+/// The default bound on engine steps per search (see [`SearchOptions::max_steps`]).
+///
+/// ```
+/// assert_eq!(inkling_core::session::DEFAULT_MAX_STEPS, 256);
+/// ```
+pub const DEFAULT_MAX_STEPS: usize = 256;
+
+/// How a completion search runs.
+///
+/// ```
+/// use inkling_core::session::{SearchOptions, WordFilter, DEFAULT_MAX_STEPS};
+/// let options = SearchOptions::new(3);
+/// assert_eq!(options.max_steps, DEFAULT_MAX_STEPS);
+/// let strict = SearchOptions { max_steps: 40, ..options };
+/// # let _ = strict;
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SearchOptions<'a> {
+    /// Beams kept and results returned (at most the session's `K`; 0 gives no results).
+    pub width: usize,
+    /// Engine steps the search may take. When reached, the search stops and returns what it
+    /// has, with [`Suggestions::cut_short`] set. This bounds the latency per keystroke.
+    pub max_steps: usize,
+    /// Words never offered, and optionally the only words offered.
+    pub filter: WordFilter<'a>,
+}
+
+impl SearchOptions<'static> {
+    /// `width` beams, [`DEFAULT_MAX_STEPS`], no word lists.
+    ///
+    /// ```
+    /// let options = inkling_core::session::SearchOptions::new(4);
+    /// assert!(options.width == 4 && options.filter.lexicon.is_none());
+    /// ```
+    pub const fn new(width: usize) -> Self {
+        SearchOptions {
+            width,
+            max_steps: DEFAULT_MAX_STEPS,
+            filter: WordFilter {
+                deny: super::word_list::WordList::EMPTY,
+                lexicon: None,
+            },
+        }
+    }
+}
+
+/// One completion: a whole word and how likely the model finds it.
+///
+/// ```
+/// use inkling_core::session::{Suggestion, Word};
+/// let s = Suggestion { text: Word::from_slice(b"the").unwrap(), logprob: -1.5, finished: true };
+/// assert_eq!(s.text.as_slice(), b"the");
+/// ```
+#[derive(Debug, Clone, PartialEq)]
+pub struct Suggestion {
+    /// The whole word: the bytes already typed followed by the completion (no boundary byte).
+    pub text: Word,
+    /// Sum of the natural-log probabilities of the completion's bytes given the text before
+    /// it; for a finished word it includes the word boundary byte that ends it.
+    pub logprob: f32,
+    /// Whether the word ended (a boundary byte followed it); `false` for a beam the search
+    /// stopped before it ended (step budget, or nothing better left).
+    pub finished: bool,
+}
+
+/// The result of a search: up to `K` suggestions, best first, distinct texts.
+///
+/// ```
+/// use inkling_core::session::Suggestions;
+/// let none = Suggestions::<3>::default();
+/// assert!(none.list.is_empty() && !none.cut_short && none.steps == 0);
+/// ```
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Suggestions<const K: usize> {
+    /// Finished words best first, then (only if fewer than the width were found)
+    /// unfinished ones best first.
+    pub list: heapless::Vec<Suggestion, K>,
+    /// Engine steps the search took.
+    pub steps: usize,
+    /// Whether the step budget stopped the search.
+    pub cut_short: bool,
+}

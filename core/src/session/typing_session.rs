@@ -1,0 +1,725 @@
+//! [`Session`]: text typed byte by byte, with backspace, and completions of it.
+
+use super::beam_search::{search, Root, Shape};
+use super::beam_slots::Slots;
+use super::keypad::KeyMap;
+use super::suggestion::{SearchOptions, Suggestions};
+use super::text_history::{TextHistory, DEFAULT_HISTORY};
+use super::word_boundary::{is_boundary, PRIME_BYTE};
+use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
+use crate::engine::buffers::Scratch;
+use crate::engine::weights::Weights;
+use crate::error::Error;
+
+/// A typing session: the model's state over the text typed so far, the word being typed and
+/// the last `H` bytes, with `K` beam states for completion searches.
+///
+/// - **Start.** A new session (and [`clear`](Session::clear)) feeds [`PRIME_BYTE`] (`\n`)
+///   once, so the first word is predicted as the start of a line (the training text has one
+///   message per line).
+/// - **Words.** [`push`](Session::push) feeds one byte. A [word boundary](super::is_boundary)
+///   ends the current word and the state after it is kept as a snapshot. A word holds at
+///   most [`MAX_WORD_LEN`] bytes; a further word byte is refused (see there).
+/// - **Backspace inside a word** restores the snapshot and re-feeds the rest of the word:
+///   at most `MAX_WORD_LEN - 1` steps.
+/// - **Backspace across a boundary** (the word is empty, so the byte removed is a boundary)
+///   recovers from the history of the last `H` bytes: the state is reset, primed and the
+///   history re-fed, at most `H + 1` steps. Text older than the history is forgotten: after
+///   such a backspace the model sees only the last `H` bytes (a session shorter than `H`
+///   bytes loses nothing, and gives exactly the state of typing the shorter text afresh).
+/// - **Memory.** The caller gives one f32 buffer of
+///   [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements (the live state and
+///   the snapshot, each with its logits, and `K` beam states with theirs) and a [`Scratch`];
+///   the session itself holds the fixed word and history buffers. See
+///   [`Dims::session_bytes`](crate::Dims::session_bytes). Nothing grows with the text.
+///
+/// `H` must be at least [`MAX_WORD_LEN`] (checked at compile time), so that the history
+/// always holds the current word.
+///
+/// ```
+/// use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = Model::from_bytes(&image)?;
+/// let dims = *model.dims();
+/// let mut floats = [0.0f32; 8192];
+/// let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+/// let scratch = Scratch::new(&dims, &mut work, &mut act)?;
+/// let mut session = Session::<_, 3>::new(model, &mut floats, scratch)?;
+/// session.push_bytes(b"hello wo")?;
+/// let found = session.suggest(&SearchOptions::new(3))?;
+/// assert!(found.list.iter().all(|s| s.text.starts_with(b"wo")));
+/// session.backspace()?;
+/// assert_eq!(session.word(), b"w");
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
+#[derive(Debug)]
+pub struct Session<'b, W: Weights, const K: usize, const H: usize = DEFAULT_HISTORY> {
+    weights: W,
+    scratch: Scratch<'b>,
+    /// The state after all the text, and the logits after it.
+    live: Slots<'b>,
+    /// The state after the last word boundary, and the logits after it.
+    boundary: Slots<'b>,
+    /// `K` beam states for searches.
+    beams: Slots<'b>,
+    word: WordBuffer,
+    history: TextHistory<H>,
+}
+
+impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
+    const HISTORY_HOLDS_A_WORD: () = assert!(H >= MAX_WORD_LEN, "H must be >= MAX_WORD_LEN");
+
+    /// A primed session over `weights`, with its states in `floats` (at least
+    /// [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements; the rest is
+    /// unused) and `scratch` made for the same model.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// assert!(session.word().is_empty() && session.history().is_empty());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn new(weights: W, floats: &'b mut [f32], scratch: Scratch<'b>) -> Result<Self, Error> {
+        let () = Self::HISTORY_HOLDS_A_WORD;
+        let dims = *weights.dims();
+        let needed = dims.session_floats(K);
+        if floats.len() < needed {
+            return Err(Error::BufferTooSmall {
+                buffer: "session",
+                needed,
+                actual: floats.len(),
+            });
+        }
+        let s = dims.state_len();
+        let (live, rest) = Slots::carve(floats, s, 1)?;
+        let (boundary, rest) = Slots::carve(rest, s, 1)?;
+        let (beams, _) = Slots::carve(rest, s, K)?;
+        let mut session = Session {
+            weights,
+            scratch,
+            live,
+            boundary,
+            beams,
+            word: WordBuffer::new(),
+            history: TextHistory::new(),
+        };
+        session.clear()?;
+        Ok(session)
+    }
+
+    /// Forgets all text and primes the state again (one step).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// let fresh: Vec<f32> = session.logits().to_vec();
+    /// session.push_bytes(b"some text")?;
+    /// session.clear()?;
+    /// assert_eq!(session.logits(), &fresh[..]);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn clear(&mut self) -> Result<(), Error> {
+        self.word.clear();
+        self.history.clear();
+        self.prime()?;
+        self.snapshot();
+        Ok(())
+    }
+
+    /// Feeds one byte (one step). A word byte when the word already has [`MAX_WORD_LEN`]
+    /// bytes is refused with [`Error::CapacityExceeded`] and changes nothing.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, MAX_WORD_LEN}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// for _ in 0..MAX_WORD_LEN {
+    ///     session.push(b'a')?;
+    /// }
+    /// assert!(session.push(b'a').is_err());
+    /// session.push(b' ')?; // a boundary is always accepted
+    /// assert!(session.word().is_empty());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn push(&mut self, byte: u8) -> Result<(), Error> {
+        if is_boundary(byte) {
+            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            self.word.clear();
+            self.snapshot();
+        } else {
+            if self.word.is_full() {
+                return Err(Error::CapacityExceeded {
+                    buffer: "word",
+                    capacity: MAX_WORD_LEN,
+                });
+            }
+            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            self.word.push(byte)?;
+        }
+        self.history.push(byte);
+        Ok(())
+    }
+
+    /// Feeds bytes in order, stopping at the first refused one.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"see you")?;
+    /// assert_eq!(session.word(), b"you");
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn push_bytes(&mut self, bytes: &[u8]) -> Result<(), Error> {
+        bytes.iter().try_for_each(|&b| self.push(b))
+    }
+
+    /// Deletes the last byte; `Ok(false)` if there was nothing to delete (at the start, or
+    /// when everything typed has fallen out of the history).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// assert!(!session.backspace()?);
+    /// session.push_bytes(b"ab c")?;
+    /// assert!(session.backspace()?); // inside the word "c"
+    /// assert!(session.backspace()?); // across the space: recovers "ab"
+    /// assert_eq!(session.word(), b"ab");
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn backspace(&mut self) -> Result<bool, Error> {
+        if self.history.pop().is_none() {
+            return Ok(false);
+        }
+        if self.word.pop().is_some() {
+            // Inside the word: back to the snapshot, then the rest of the word again.
+            let (state, logits) = self.boundary.parts(0);
+            self.live.load(0, state, logits);
+            for &b in self.word.as_bytes() {
+                self.live.step(0, &self.weights, &mut self.scratch, b)?;
+            }
+        } else {
+            self.recover()?;
+        }
+        Ok(true)
+    }
+
+    /// Rebuilds the state, snapshot and word from the history alone.
+    fn recover(&mut self) -> Result<(), Error> {
+        self.prime()?;
+        self.snapshot();
+        self.word.clear();
+        for b in self.history.iter() {
+            self.live.step(0, &self.weights, &mut self.scratch, b)?;
+            if is_boundary(b) {
+                self.word.clear();
+                let (state, logits) = self.live.parts(0);
+                self.boundary.load(0, state, logits);
+            } else {
+                // At most MAX_WORD_LEN bytes follow the last boundary, as pushes ensured.
+                self.word.push(b)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Zero state, then [`PRIME_BYTE`].
+    fn prime(&mut self) -> Result<(), Error> {
+        self.live.reset(0);
+        self.live
+            .step(0, &self.weights, &mut self.scratch, PRIME_BYTE)
+    }
+
+    /// Keeps the live state as the boundary snapshot.
+    fn snapshot(&mut self) {
+        let (state, logits) = self.live.parts(0);
+        self.boundary.load(0, state, logits);
+    }
+
+    /// The `options.width` most likely completions of the current word (or, right after a
+    /// boundary, of the next word), best first. See [`beam search`](super::beam_search).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 4>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"good ")?;
+    /// let next = session.suggest(&SearchOptions { max_steps: 50, ..SearchOptions::new(4) })?;
+    /// assert!(next.steps <= 50);
+    /// assert!(next.list.windows(2).all(|w| !w[0].finished || !w[1].finished
+    ///     || w[0].logprob >= w[1].logprob));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn suggest(&mut self, options: &SearchOptions<'_>) -> Result<Suggestions<K>, Error> {
+        self.run(Shape::Free, options)
+    }
+
+    /// The `options.width` most likely words that continue the current word with one letter
+    /// of each key of `keys` in turn (12-key entry, e.g. `b"4663"` with
+    /// [`KeyMap::E161`]), ranked by the model including the end of the word.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions, KeyMap}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 3>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"it is ")?;
+    /// let words = session.keys(b"4663", &KeyMap::E161, &SearchOptions::new(3))?;
+    /// for s in &words.list {
+    ///     assert_eq!(s.text.len(), 4);
+    ///     assert!(b"ghi".contains(&s.text[0]) && b"mno".contains(&s.text[1]));
+    /// }
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn keys(
+        &mut self,
+        keys: &[u8],
+        map: &KeyMap,
+        options: &SearchOptions<'_>,
+    ) -> Result<Suggestions<K>, Error> {
+        map.check(keys)?;
+        if self.word.as_bytes().len() + keys.len() > MAX_WORD_LEN {
+            return Err(Error::CapacityExceeded {
+                buffer: "word",
+                capacity: MAX_WORD_LEN,
+            });
+        }
+        self.run(Shape::Keys { map, keys }, options)
+    }
+
+    fn run(
+        &mut self,
+        shape: Shape<'_>,
+        options: &SearchOptions<'_>,
+    ) -> Result<Suggestions<K>, Error> {
+        let (state, logits) = self.live.parts(0);
+        let root = Root {
+            state,
+            logits,
+            word: self.word.as_bytes(),
+        };
+        search(
+            &self.weights,
+            &mut self.scratch,
+            &mut self.beams,
+            root,
+            shape,
+            options,
+        )
+    }
+
+    /// The word typed since the last boundary.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"one tw")?;
+    /// assert_eq!(session.word(), b"tw");
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn word(&self) -> &[u8] {
+        self.word.as_bytes()
+    }
+
+    /// The last bytes typed (at most `H`), oldest first.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"hi")?;
+    /// assert!(session.history().iter().eq(*b"hi"));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn history(&self) -> &TextHistory<H> {
+        &self.history
+    }
+
+    /// The logits of the byte after the text (256 values).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// assert_eq!(session.logits().len(), 256);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn logits(&self) -> &[f32] {
+        self.live.logits(0)
+    }
+
+    /// The model.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// assert_eq!(session.weights().dims().blocks, 1);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn weights(&self) -> &W {
+        &self.weights
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::image::example::tiny_image;
+    use crate::session::{WordFilter, WordList};
+    use crate::Model;
+
+    const FLOATS: usize = 4096;
+
+    /// Buffers for a session over the tiny example model.
+    struct Buffers {
+        floats: [f32; FLOATS],
+        work: [f32; 512],
+        act: [i16; 64],
+    }
+
+    impl Buffers {
+        fn new() -> Self {
+            Buffers {
+                floats: [0.0; FLOATS],
+                work: [0.0; 512],
+                act: [0; 64],
+            }
+        }
+
+        fn session<'b, const K: usize, const H: usize>(
+            &'b mut self,
+            model: Model<'b>,
+        ) -> Session<'b, Model<'b>, K, H> {
+            let dims = *model.dims();
+            let scratch = Scratch::new(&dims, &mut self.work, &mut self.act).unwrap();
+            Session::new(model, &mut self.floats, scratch).unwrap()
+        }
+    }
+
+    fn bits(s: &[f32]) -> heapless::Vec<u32, 256> {
+        s.iter().map(|v| v.to_bits()).collect()
+    }
+
+    #[test]
+    fn full_word_refuses_a_byte_and_changes_nothing() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<2, 64>(model);
+        for _ in 0..MAX_WORD_LEN {
+            s.push(b'x').unwrap();
+        }
+        let before = bits(s.logits());
+        let err = s.push(b'y').unwrap_err();
+        assert_eq!(
+            err,
+            Error::CapacityExceeded {
+                buffer: "word",
+                capacity: MAX_WORD_LEN
+            }
+        );
+        assert_eq!(bits(s.logits()), before);
+        assert_eq!(s.word().len(), MAX_WORD_LEN);
+        assert_eq!(s.history().len(), MAX_WORD_LEN);
+        // A full word can still be completed: it may only end.
+        let found = s.suggest(&SearchOptions::new(2)).unwrap();
+        assert!(found
+            .list
+            .iter()
+            .all(|x| x.text.len() == MAX_WORD_LEN && x.finished));
+        assert_eq!(found.steps, 0);
+        s.push(b' ').unwrap();
+        assert!(s.word().is_empty());
+    }
+
+    #[test]
+    fn backspace_at_the_start_does_nothing() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<2, 64>(model);
+        let fresh = bits(s.logits());
+        assert!(!s.backspace().unwrap());
+        assert_eq!(bits(s.logits()), fresh);
+        s.push(b'a').unwrap();
+        assert!(s.backspace().unwrap());
+        assert!(!s.backspace().unwrap());
+        assert_eq!(bits(s.logits()), fresh);
+    }
+
+    #[test]
+    fn backspace_gives_the_state_of_typing_the_shorter_text() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let text = b"ab cd, ef\ng";
+        for cut in 0..text.len() {
+            let mut b1 = Buffers::new();
+            let mut edited = b1.session::<2, 64>(model);
+            edited.push_bytes(text).unwrap();
+            for _ in cut..text.len() {
+                assert!(edited.backspace().unwrap());
+            }
+            let mut b2 = Buffers::new();
+            let mut fresh = b2.session::<2, 64>(model);
+            fresh.push_bytes(&text[..cut]).unwrap();
+            assert_eq!(bits(edited.logits()), bits(fresh.logits()), "cut {cut}");
+            assert_eq!(edited.word(), fresh.word());
+            let (e, f) = (edited.boundary.parts(0), fresh.boundary.parts(0));
+            assert_eq!(e.0, f.0, "snapshot state, cut {cut}");
+        }
+    }
+
+    #[test]
+    fn text_older_than_the_history_is_forgotten_on_recovery() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b1 = Buffers::new();
+        let mut s = b1.session::<2, 40>(model);
+        let text = b"one two three four five six seven eight nine ten ";
+        s.push_bytes(text).unwrap();
+        assert_eq!(s.history().len(), 40);
+        s.backspace().unwrap(); // across the final space: recovery from 39 bytes
+        let kept: heapless::Vec<u8, 40> = s.history().iter().collect();
+        assert_eq!(&kept[..], &text[text.len() - 40..text.len() - 1]);
+        let mut b2 = Buffers::new();
+        let mut fresh = b2.session::<2, 40>(model);
+        fresh.push_bytes(&kept).unwrap();
+        assert_eq!(bits(s.logits()), bits(fresh.logits()));
+        assert_eq!(s.word(), b"ten");
+    }
+
+    #[test]
+    fn typing_a_long_text_keeps_every_buffer_within_its_capacity() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let dims = *model.dims();
+        let mut b = Buffers::new();
+        let needed = dims.session_floats(3);
+        let scratch = Scratch::new(&dims, &mut b.work, &mut b.act).unwrap();
+        // Exactly the documented size is enough, forever.
+        let mut s = Session::<_, 3, 64>::new(model, &mut b.floats[..needed], scratch).unwrap();
+        let phrase = b"a quick test of the session, again and again.\n";
+        for round in 0..100 {
+            s.push_bytes(phrase).unwrap();
+            assert!(s.history().len() <= 64 && s.word().len() <= MAX_WORD_LEN);
+            if round % 10 == 0 {
+                s.backspace().unwrap();
+                let found = s.suggest(&SearchOptions::new(3)).unwrap();
+                assert!(found.list.len() <= 3);
+                s.push(b'\n').unwrap();
+            }
+        }
+        assert_eq!(s.history().len(), 64);
+        assert_eq!(s.logits().len(), 256);
+    }
+
+    #[test]
+    fn too_small_a_buffer_is_refused_with_its_size() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let dims = *model.dims();
+        let mut b = Buffers::new();
+        let needed = dims.session_floats(3);
+        let scratch = Scratch::new(&dims, &mut b.work, &mut b.act).unwrap();
+        let err = Session::<_, 3>::new(model, &mut b.floats[..needed - 1], scratch).unwrap_err();
+        assert_eq!(
+            err,
+            Error::BufferTooSmall {
+                buffer: "session",
+                needed,
+                actual: needed - 1
+            }
+        );
+    }
+
+    #[test]
+    fn width_above_k_is_refused_and_zero_gives_nothing() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<2, 64>(model);
+        s.push_bytes(b"th").unwrap();
+        let err = s.suggest(&SearchOptions::new(3)).unwrap_err();
+        assert_eq!(
+            err,
+            Error::CapacityExceeded {
+                buffer: "beams",
+                capacity: 2
+            }
+        );
+        let none = s.suggest(&SearchOptions::new(0)).unwrap();
+        assert!(none.list.is_empty() && none.steps == 0 && !none.cut_short);
+    }
+
+    #[test]
+    fn k_of_one_gives_one_word_and_k_above_the_lexicon_gives_every_word() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<1, 64>(model);
+        s.push_bytes(b"he").unwrap();
+        let one = s.suggest(&SearchOptions::new(1)).unwrap();
+        assert_eq!(one.list.len(), 1);
+
+        let mut b = Buffers::new();
+        let mut s = b.session::<5, 64>(model);
+        s.push_bytes(b"he").unwrap();
+        let lexicon = WordList::new(b"hello\nhelp\nzebra\n").unwrap();
+        let options = SearchOptions {
+            max_steps: 10_000,
+            filter: WordFilter {
+                deny: WordList::EMPTY,
+                lexicon: Some(lexicon),
+            },
+            ..SearchOptions::new(5)
+        };
+        let found = s.suggest(&options).unwrap();
+        let mut texts: heapless::Vec<&[u8], 5> = found.list.iter().map(|x| &x.text[..]).collect();
+        texts.sort_unstable();
+        assert_eq!(&texts[..], &[&b"hello"[..], &b"help"[..]]);
+        assert!(found.list.iter().all(|x| x.finished) && !found.cut_short);
+    }
+
+    #[test]
+    fn step_budget_zero_and_one() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<3, 64>(model);
+        s.push_bytes(b"to").unwrap();
+        let zero = s
+            .suggest(&SearchOptions {
+                max_steps: 0,
+                ..SearchOptions::new(3)
+            })
+            .unwrap();
+        assert!(zero.cut_short && zero.steps == 0);
+        // Without a step only the word as typed can finish; the rest are one byte longer.
+        for x in &zero.list {
+            if x.finished {
+                assert_eq!(&x.text[..], b"to");
+            } else {
+                assert_eq!(x.text.len(), 3);
+            }
+        }
+        assert_eq!(zero.list.len(), 3);
+        let one = s
+            .suggest(&SearchOptions {
+                max_steps: 1,
+                ..SearchOptions::new(3)
+            })
+            .unwrap();
+        assert!(one.cut_short && one.steps == 1);
+        assert_eq!(one.list.len(), 3);
+    }
+
+    #[test]
+    fn deny_list_words_are_never_offered() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<4, 64>(model);
+        s.push_bytes(b"a").unwrap();
+        let plain = s.suggest(&SearchOptions::new(4)).unwrap();
+        // Deny exactly the words found, then search again.
+        let mut deny = [0u8; 4 * (MAX_WORD_LEN + 1)];
+        let mut words: heapless::Vec<&[u8], 4> = plain.list.iter().map(|x| &x.text[..]).collect();
+        words.sort_unstable();
+        let mut len = 0;
+        for w in &words {
+            deny[len..len + w.len()].copy_from_slice(w);
+            deny[len + w.len()] = b'\n';
+            len += w.len() + 1;
+        }
+        let options = SearchOptions {
+            filter: WordFilter {
+                deny: WordList::new(&deny[..len]).unwrap(),
+                lexicon: None,
+            },
+            ..SearchOptions::new(4)
+        };
+        let again = s.suggest(&options).unwrap();
+        assert!(!again.list.is_empty());
+        for x in &again.list {
+            assert!(!words.contains(&&x.text[..]), "{:?}", x.text);
+        }
+    }
+
+    #[test]
+    fn keys_give_words_of_those_letters_and_refuse_bad_keys() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<4, 64>(model);
+        s.push_bytes(b"go ").unwrap();
+        let found = s
+            .keys(b"4663", &KeyMap::E161, &SearchOptions::new(4))
+            .unwrap();
+        assert_eq!(found.list.len(), 4);
+        for x in &found.list {
+            assert!(x.finished && x.text.len() == 4);
+            for (&letter, &key) in x.text.iter().zip(b"4663") {
+                assert!(KeyMap::E161.letters(key).unwrap().contains(letter));
+            }
+        }
+        assert_eq!(
+            s.keys(b"40", &KeyMap::E161, &SearchOptions::new(4)),
+            Err(Error::NotALetterKey {
+                position: 1,
+                byte: b'0'
+            })
+        );
+        let long = [b'2'; MAX_WORD_LEN + 1];
+        assert!(s
+            .keys(&long, &KeyMap::E161, &SearchOptions::new(4))
+            .is_err());
+    }
+}

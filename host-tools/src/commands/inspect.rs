@@ -1,0 +1,119 @@
+//! `inkling inspect`: what an image holds and the flash and RAM it takes.
+
+use std::path::PathBuf;
+
+use inkling_core::Model;
+
+use crate::error::HostError;
+
+/// Arguments of `inkling inspect`.
+#[derive(Debug, clap::Args)]
+pub struct InspectArgs {
+    /// The image.
+    pub image: PathBuf,
+    /// Also show the RAM of a typing session offering this many suggestions.
+    #[arg(long)]
+    pub beams: Option<usize>,
+    /// Print one JSON object.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Runs `inkling inspect`.
+pub fn run(args: &InspectArgs) -> Result<(), HostError> {
+    let bytes = std::fs::read(&args.image).map_err(HostError::io(&args.image))?;
+    let model = Model::from_bytes(&bytes).map_err(|source| HostError::Image {
+        path: args.image.clone(),
+        source,
+    })?;
+    let d = *model.dims();
+    let tensors: Vec<_> = model
+        .tensors()
+        .map(|e| {
+            serde_json::json!({
+                "role": e.role.name(),
+                "block": e.block,
+                "element": format!("{:?}", e.element).to_lowercase(),
+                "scale": e.scale.map(|s| format!("{s:?}").to_lowercase()),
+                "rows": e.rows,
+                "cols": e.cols,
+                "offset": e.data_offset,
+                "scales_offset": e.scales_offset,
+            })
+        })
+        .collect();
+    let session = args.beams.map(|k| crate::commands::session_ram(&d, k));
+    let (major, minor) = model.version();
+    let v = serde_json::json!({
+        "image": args.image,
+        "version": format!("{major}.{minor}"),
+        "crc32": format!("{:#010x}", model.checksum()),
+        "dims": {
+            "d_model": d.d_model, "d_inner": d.d_inner, "d_state": d.d_state,
+            "d_conv": d.d_conv, "dt_rank": d.dt_rank, "blocks": d.blocks,
+            "tied_head": d.tied_head, "norm_eps": d.norm_eps, "group": d.group,
+        },
+        "flash_bytes": model.flash_bytes(),
+        "ram": {
+            "state_bytes": d.state_bytes(),
+            "scratch_bytes": d.scratch_bytes(),
+            "engine_bytes": d.state_bytes() + d.scratch_bytes(),
+            "session": session,
+        },
+        "macs_per_step": d.macs_per_step(),
+        "tensors": tensors,
+    });
+    if args.json {
+        println!("{v}");
+    } else {
+        println!(
+            "{}: image version {major}.{minor}, CRC-32 {:#010x}",
+            args.image.display(),
+            model.checksum()
+        );
+        println!(
+            "blocks {}, d_model {}, d_inner {}, d_state {}, d_conv {}, dt_rank {}, head {}, scales {}",
+            d.blocks,
+            d.d_model,
+            d.d_inner,
+            d.d_state,
+            d.d_conv,
+            d.dt_rank,
+            if d.tied_head { "tied" } else { "untied" },
+            if d.group == 0 { "per row".to_string() } else { format!("per {} columns", d.group) }
+        );
+        println!(
+            "flash: {} bytes (the whole image, read in place)",
+            model.flash_bytes()
+        );
+        println!(
+            "RAM:   state {} bytes + scratch {} bytes = {} bytes for one engine",
+            d.state_bytes(),
+            d.scratch_bytes(),
+            d.state_bytes() + d.scratch_bytes()
+        );
+        if let Some(s) = session {
+            println!(
+                "RAM:   typing session with {} suggestions: {s}",
+                args.beams.unwrap_or(0)
+            );
+        }
+        println!("int8 multiply-accumulates per byte: {}", d.macs_per_step());
+        println!(
+            "{:<12} {:>5} {:>6} {:>6} {:>6} {:>8}",
+            "tensor", "block", "type", "rows", "cols", "offset"
+        );
+        for e in model.tensors() {
+            println!(
+                "{:<12} {:>5} {:>6} {:>6} {:>6} {:>8}",
+                e.role.name(),
+                e.block,
+                format!("{:?}", e.element).to_lowercase(),
+                e.rows,
+                e.cols,
+                e.data_offset
+            );
+        }
+    }
+    Ok(())
+}

@@ -1,0 +1,189 @@
+//! `inkling suggest`: completions of the word being typed (or of the next word).
+
+use std::path::{Path, PathBuf};
+
+use inkling_core::session::{
+    SearchOptions, Session, Suggestions, WordFilter, WordList, DEFAULT_MAX_STEPS,
+};
+use inkling_core::{Model, Scratch};
+
+use crate::error::HostError;
+use crate::model_file::load_image;
+
+/// The most suggestions one run may ask for (the session's beam capacity).
+pub const MAX_COUNT: usize = 16;
+
+/// Arguments shared by `inkling suggest` and `inkling keys`.
+#[derive(Debug, clap::Args)]
+pub struct SearchArgs {
+    /// An image, or a checkpoint (converted to an image in memory first).
+    pub model: PathBuf,
+    /// How many suggestions (beams), at most 16.
+    #[arg(long, default_value_t = 3)]
+    pub count: usize,
+    /// Print one JSON object.
+    #[arg(long)]
+    pub json: bool,
+    /// Words never offered: a file with one word per line (sorted here).
+    #[arg(long)]
+    pub deny: Option<PathBuf>,
+    /// The only words offered: a file with one word per line (sorted here).
+    #[arg(long)]
+    pub lexicon: Option<PathBuf>,
+    /// Engine steps the search may take.
+    #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
+    pub max_steps: usize,
+}
+
+/// Arguments of `inkling suggest`.
+#[derive(Debug, clap::Args)]
+pub struct SuggestArgs {
+    #[command(flatten)]
+    pub search: SearchArgs,
+    /// The text typed so far (empty: the first word of a message). If it ends inside a
+    /// word, that word is completed; after a space or punctuation, the next word is offered.
+    #[arg(long, default_value = "")]
+    pub text: String,
+}
+
+/// Runs `inkling suggest`.
+pub fn run(args: &SuggestArgs) -> Result<(), HostError> {
+    let found = with_session(&args.search, args.text.as_bytes(), |session, options| {
+        session.suggest(options)
+    })?;
+    print(&found, args.search.json);
+    Ok(())
+}
+
+/// A word list file made ready for the core: one word per line, `\r` and empty lines
+/// dropped, sorted bytewise, duplicates removed (the order the firmware's list must have).
+pub fn read_word_list(path: &Path) -> Result<Vec<u8>, HostError> {
+    let bytes = std::fs::read(path).map_err(HostError::io(path))?;
+    let mut words: Vec<&[u8]> = bytes
+        .split(|&b| b == b'\n')
+        .map(|w| w.strip_suffix(b"\r").unwrap_or(w))
+        .filter(|w| !w.is_empty())
+        .collect();
+    words.sort_unstable();
+    words.dedup();
+    Ok(words.join(&b'\n'))
+}
+
+/// Checks a prepared word list (it cannot fail after [`read_word_list`], but the core's
+/// own check stays the judge).
+fn word_list<'a>(path: &Path, bytes: &'a [u8]) -> Result<WordList<'a>, HostError> {
+    WordList::new(bytes).map_err(|e| HostError::Usage(format!("{}: {e}", path.display())))
+}
+
+/// Opens the model, types `text` into a session and runs `search` on it.
+pub fn with_session(
+    args: &SearchArgs,
+    text: &[u8],
+    search: impl FnOnce(
+        &mut Session<'_, Model<'_>, MAX_COUNT>,
+        &SearchOptions<'_>,
+    ) -> Result<Suggestions<MAX_COUNT>, inkling_core::Error>,
+) -> Result<Suggestions<MAX_COUNT>, HostError> {
+    if args.count > MAX_COUNT {
+        return Err(HostError::Usage(format!(
+            "--count {} is more than the {MAX_COUNT} this command holds",
+            args.count
+        )));
+    }
+    let deny = args.deny.as_deref().map(read_word_list).transpose()?;
+    let lexicon = args.lexicon.as_deref().map(read_word_list).transpose()?;
+    let filter = WordFilter {
+        deny: match (&args.deny, &deny) {
+            (Some(path), Some(bytes)) => word_list(path, bytes)?,
+            _ => WordList::EMPTY,
+        },
+        lexicon: match (&args.lexicon, &lexicon) {
+            (Some(path), Some(bytes)) => Some(word_list(path, bytes)?),
+            _ => None,
+        },
+    };
+    let options = SearchOptions {
+        width: args.count,
+        max_steps: args.max_steps,
+        filter,
+    };
+
+    let image = load_image(&args.model)?;
+    let model_error = |source| HostError::Image {
+        path: args.model.clone(),
+        source,
+    };
+    let model = Model::from_bytes(&image).map_err(model_error)?;
+    let dims = *model.dims();
+    let mut floats = vec![0.0f32; dims.session_floats(MAX_COUNT)];
+    let mut work = vec![0.0f32; dims.work_len()];
+    let mut act = vec![0i16; dims.act_len()];
+    let scratch = Scratch::new(&dims, &mut work, &mut act).map_err(model_error)?;
+    let mut session =
+        Session::<_, MAX_COUNT>::new(model, &mut floats, scratch).map_err(model_error)?;
+    for (at, &b) in text.iter().enumerate() {
+        session
+            .push(b)
+            .map_err(|e| HostError::Usage(format!("--text, byte {at}: {e}")))?;
+    }
+    search(&mut session, &options).map_err(|e| HostError::Usage(e.to_string()))
+}
+
+/// One suggestion as printed in JSON (fields in this order).
+#[derive(serde::Serialize)]
+struct SuggestionJson {
+    text: String,
+    logprob: f32,
+    /// The f32's bit pattern, for bit-exact comparison with firmware.
+    logprob_bits: String,
+    finished: bool,
+}
+
+/// The JSON object printed (fields in this order).
+#[derive(serde::Serialize)]
+struct SuggestionsJson {
+    suggestions: Vec<SuggestionJson>,
+    steps: usize,
+}
+
+/// Prints suggestions: one JSON object
+/// `{"suggestions": [{"text", "logprob", "logprob_bits", "finished"}...], "steps"}`, or one
+/// suggestion per line (`text<TAB>logprob`, with `<TAB>unfinished` for a word the search did
+/// not end). Bytes that are not UTF-8 print as U+FFFD.
+pub fn print(found: &Suggestions<MAX_COUNT>, json: bool) {
+    if json {
+        let out = SuggestionsJson {
+            suggestions: found
+                .list
+                .iter()
+                .map(|s| SuggestionJson {
+                    text: String::from_utf8_lossy(&s.text).into_owned(),
+                    logprob: s.logprob,
+                    logprob_bits: format!("{:#010x}", s.logprob.to_bits()),
+                    finished: s.finished,
+                })
+                .collect(),
+            steps: found.steps,
+        };
+        match serde_json::to_string(&out) {
+            Ok(line) => println!("{line}"),
+            // Strings, numbers and booleans only: serialising cannot fail.
+            Err(e) => eprintln!("JSON output failed: {e}"),
+        }
+    } else {
+        for s in &found.list {
+            let tag = if s.finished { "" } else { "\tunfinished" };
+            println!(
+                "{}\t{:.4}{tag}",
+                String::from_utf8_lossy(&s.text),
+                s.logprob
+            );
+        }
+        if found.cut_short {
+            eprintln!(
+                "search stopped after {} steps (--max-steps); results may be incomplete",
+                found.steps
+            );
+        }
+    }
+}

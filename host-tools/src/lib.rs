@@ -1,0 +1,7 @@
+//! The workstation side of inkling: the `inkling` command's pieces.
+
+pub mod commands;
+pub mod error;
+pub mod model_file;
+pub mod text_scoring;
+pub mod train;

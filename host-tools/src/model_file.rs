@@ -1,0 +1,78 @@
+//! Opening a model file: a packed image (int8 engine) or a float checkpoint (float engine).
+
+use std::path::Path;
+
+use inkling_core::engine::weights::Weights;
+use inkling_core::{Dims, Model};
+use inkling_quantize::name_map::NameMap;
+use inkling_quantize::{Checkpoint, ConvertOptions, FloatModel};
+
+use crate::error::HostError;
+
+/// A model file's contents, checked.
+pub enum ModelFile {
+    /// An image's bytes (already validated once).
+    Image(Vec<u8>),
+    /// A checkpoint, ready for the float engine.
+    Float(Box<FloatModel>),
+}
+
+/// Whether these bytes start like an image.
+fn is_image(bytes: &[u8]) -> bool {
+    bytes.starts_with(&inkling_core::image::format::MAGIC)
+}
+
+impl ModelFile {
+    /// Opens an image or a checkpoint (told apart by the image magic).
+    pub fn open(path: &Path) -> Result<Self, HostError> {
+        let bytes = std::fs::read(path).map_err(HostError::io(path))?;
+        if is_image(&bytes) {
+            Model::from_bytes(&bytes).map_err(|source| HostError::Image {
+                path: path.to_path_buf(),
+                source,
+            })?;
+            Ok(ModelFile::Image(bytes))
+        } else {
+            let ck = Checkpoint::from_bytes(&bytes, path, &NameMap::identity())?;
+            Ok(ModelFile::Float(Box::new(FloatModel::new(ck))))
+        }
+    }
+
+    /// `"int8"` or `"f32"`.
+    pub fn engine_name(&self) -> &'static str {
+        match self {
+            ModelFile::Image(_) => "int8",
+            ModelFile::Float(_) => "f32",
+        }
+    }
+
+    /// Runs `f` with the model's weights, whichever engine they are for.
+    pub fn with_weights<R>(&self, f: impl FnOnce(&dyn Weights) -> R) -> R {
+        match self {
+            ModelFile::Image(bytes) => match Model::from_bytes(bytes) {
+                Ok(model) => f(&model),
+                // Validated in `open`; the bytes have not changed since.
+                Err(_) => unreachable!("image validated when opened"),
+            },
+            ModelFile::Float(fm) => f(fm.as_ref()),
+        }
+    }
+
+    /// The model's dimensions.
+    pub fn dims(&self) -> Dims {
+        self.with_weights(|w| *w.dims())
+    }
+}
+
+/// The bytes of an image for `path`: the file itself if it is an image, or a checkpoint
+/// converted in memory with default options.
+pub fn load_image(path: &Path) -> Result<Vec<u8>, HostError> {
+    match ModelFile::open(path)? {
+        ModelFile::Image(bytes) => Ok(bytes),
+        ModelFile::Float(fm) => {
+            let (image, _) =
+                inkling_quantize::convert(fm.checkpoint(), &ConvertOptions::default())?;
+            Ok(image)
+        }
+    }
+}

@@ -1,0 +1,13 @@
+#!/usr/bin/env bash
+# The recipe of the bundled demo model: from a fresh clone to models/demo.safetensors and
+# models/demo.inkl. About 25 minutes on a 2-core workstation.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+data/open/prepare.sh                      # King James Bible from Debian's bible-kjv-text, held-out books split off
+python3 data/scenario/generate.py         # the invented scenario text (already committed; regenerated identically)
+cargo build --release -p inkling-host
+inkling=target/release/inkling
+"$inkling" train data/open/kjv-train.txt data/scenario/train.txt \
+  --config small --seconds 1380 --holdout 0.01 --seed 7 --out models/demo.safetensors
+"$inkling" convert models/demo.safetensors -o models/demo.inkl
+"$inkling" eval models/demo.inkl --text data/open/kjv-heldout.txt --against models/demo.safetensors
