@@ -8,13 +8,16 @@ use inkling_core::image::format::Role;
 use inkling_core::image::views::Floats;
 use inkling_core::Dims;
 
-use crate::checkpoint::{schema_name, Checkpoint};
+use crate::checkpoint::Checkpoint;
 
 /// A checkpoint's weights in f32, with `A = -exp(decay)` computed once.
 #[derive(Debug, Clone)]
 pub struct FloatModel {
     checkpoint: Checkpoint,
     decay_rates: Vec<Vec<f32>>,
+    /// Per block: expand, select, contract (looked up once, not per step).
+    matrices: Vec<[Vec<f32>; 3]>,
+    head: Vec<f32>,
 }
 
 impl FloatModel {
@@ -29,9 +32,22 @@ impl FloatModel {
                     .collect()
             })
             .collect();
+        let matrices = (0..checkpoint.dims.blocks)
+            .map(|l| {
+                [Role::Expand, Role::Select, Role::Contract].map(|r| checkpoint.role(r, l).to_vec())
+            })
+            .collect();
+        let head_role = if checkpoint.dims.tied_head {
+            Role::ByteEmbed
+        } else {
+            Role::Head
+        };
+        let head = checkpoint.role(head_role, 0).to_vec();
         FloatModel {
             checkpoint,
             decay_rates,
+            matrices,
+            head,
         }
     }
 
@@ -62,12 +78,12 @@ impl Weights for FloatModel {
     }
 
     fn matvec(&self, block: usize, role: Role, input: &[f32], _act: &mut [i16], out: &mut [f32]) {
-        let name = match role {
-            Role::Head if self.checkpoint.dims.tied_head => schema_name(Role::ByteEmbed, 0),
-            Role::Head => schema_name(Role::Head, 0),
-            _ => schema_name(role, block),
+        let w: &[f32] = match role {
+            Role::Head => &self.head,
+            Role::Expand => &self.matrices[block][0],
+            Role::Select => &self.matrices[block][1],
+            _ => &self.matrices[block][2],
         };
-        let w = self.checkpoint.tensor(&name);
         let cols = input.len();
         for (o, row) in out.iter_mut().zip(w.chunks_exact(cols)) {
             let mut acc = 0.0f32;
