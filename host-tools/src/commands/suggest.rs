@@ -133,6 +133,8 @@ pub fn with_session(
 #[derive(serde::Serialize)]
 struct SuggestionJson {
     text: String,
+    /// The suggestion's exact bytes in hex (the text above is lossy where they are not UTF-8).
+    text_hex: String,
     logprob: f32,
     /// The f32's bit pattern, for bit-exact comparison with firmware.
     logprob_bits: String,
@@ -147,7 +149,7 @@ struct SuggestionsJson {
 }
 
 /// Prints suggestions: one JSON object
-/// `{"suggestions": [{"text", "logprob", "logprob_bits", "finished"}...], "steps"}`, or one
+/// `{"suggestions": [{"text", "text_hex", "logprob", "logprob_bits", "finished"}...], "steps"}`, or one
 /// suggestion per line (`text<TAB>logprob`, with `<TAB>unfinished` for a word the search did
 /// not end). Bytes that are not UTF-8 print as U+FFFD.
 pub fn print(found: &Suggestions<MAX_COUNT>, json: bool) {
@@ -158,6 +160,7 @@ pub fn print(found: &Suggestions<MAX_COUNT>, json: bool) {
                 .iter()
                 .map(|s| SuggestionJson {
                     text: String::from_utf8_lossy(&s.text).into_owned(),
+                    text_hex: s.text.iter().map(|b| format!("{b:02x}")).collect(),
                     logprob: s.logprob,
                     logprob_bits: format!("{:#010x}", s.logprob.to_bits()),
                     finished: s.finished,

@@ -1,0 +1,68 @@
+//! Puts `memory.x` on the linker's search path and picks the model image that is built into
+//! flash: the file named by `INKLING_IMAGE` (relative paths are taken from this folder), or
+//! `../tests/data/firmware-default.inkl`.
+
+use std::env;
+use std::fs;
+use std::path::{Path, PathBuf};
+
+const DEFAULT_IMAGE: &str = "../tests/data/firmware-default.inkl";
+
+/// Suggestions per keystroke, and so beams of the session (passed on to main.rs).
+const SUGGESTIONS: usize = 3;
+
+fn main() {
+    let manifest =
+        PathBuf::from(env::var_os("CARGO_MANIFEST_DIR").expect("cargo sets CARGO_MANIFEST_DIR"));
+    let out = PathBuf::from(env::var_os("OUT_DIR").expect("cargo sets OUT_DIR"));
+
+    // memory.x next to link.x (from cortex-m-rt), so `-Tlink.x` finds it.
+    fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("memory.x is missing");
+    println!("cargo:rustc-link-search={}", out.display());
+    println!("cargo:rerun-if-changed=memory.x");
+    if env::var_os("CARGO_FEATURE_DEFMT").is_some() {
+        println!("cargo:rustc-link-arg-bins=-Tdefmt.x");
+    }
+
+    println!("cargo:rerun-if-env-changed=INKLING_IMAGE");
+    let chosen =
+        env::var_os("INKLING_IMAGE").map_or_else(|| PathBuf::from(DEFAULT_IMAGE), PathBuf::from);
+    let image = manifest.join(chosen);
+    let on_device = env::var("CARGO_CFG_TARGET_OS").is_ok_and(|os| os == "none");
+    if on_device && !image.is_file() {
+        panic!(
+            "the model image {} does not exist: set INKLING_IMAGE to a .inkl file \
+             (made by `inkling convert`)",
+            image.display()
+        );
+    }
+    println!("cargo:rerun-if-changed={}", image.display());
+    println!("cargo:rustc-env=INKLING_IMAGE_FILE={}", image.display());
+    if on_device {
+        write_buffer_sizes(&image, &out.join("buffer_sizes.rs"));
+    }
+}
+
+/// Validates the image now (a bad one fails the build, not the device) and writes the
+/// sizes of the buffers it needs, so RAM is exactly what this model takes.
+fn write_buffer_sizes(image: &Path, out: &Path) {
+    let bytes = fs::read(image).unwrap_or_else(|e| panic!("reading {}: {e}", image.display()));
+    let model = inkling_core::Model::from_bytes(&bytes)
+        .unwrap_or_else(|e| panic!("{} is not a valid model image: {e}", image.display()));
+    let dims = model.dims();
+    let text = format!(
+        "/// Suggestions per keystroke (beams of the session).\n\
+         const SUGGESTIONS: usize = {SUGGESTIONS};\n\
+         /// f32 elements of the session's states (live, snapshot, {SUGGESTIONS} beams) for the \
+         built-in image.\n\
+         const SESSION_FLOATS: usize = {};\n\
+         /// f32 elements of engine work space for the built-in image.\n\
+         const WORK_LEN: usize = {};\n\
+         /// i16 elements of activation scratch for the built-in image.\n\
+         const ACT_LEN: usize = {};\n",
+        dims.session_floats(SUGGESTIONS),
+        dims.work_len(),
+        dims.act_len(),
+    );
+    fs::write(out, text).unwrap_or_else(|e| panic!("writing {}: {e}", out.display()));
+}

@@ -1,0 +1,237 @@
+//! Word completion on a Cortex-M4F, typed input in, suggestions out.
+//!
+//! Reads typed bytes from the host (semihosting standard input), line by line. Each byte of a
+//! line is one keystroke (0x08 and 0x7F are backspace); after each, it writes one line: the
+//! text typed so far and the completions of the current word with their log-probabilities
+//! (see [`inkling_firmware_example::suggestion_line`]). The end of a line clears the text.
+//! When the input ends it measures the engine and reports the figures on the status log,
+//! then exits QEMU with status 0.
+//!
+//! The model image is built in from flash (`INKLING_IMAGE` at build time) and never copied;
+//! all RAM is in statics sized from the image's dimensions, plus the stack.
+#![no_std]
+#![no_main]
+
+mod exit;
+mod instruction_clock;
+mod semihosting_io;
+mod stack_paint;
+mod status_log;
+
+use cortex_m_rt::entry;
+use inkling_core::engine::recurrence::step;
+use inkling_core::session::{SearchOptions, Session};
+use inkling_core::{Model, Scratch};
+use inkling_firmware_example::line_reader::LineReader;
+use inkling_firmware_example::suggestion_line::write_line;
+
+use exit::{exit, ExitCode};
+use instruction_clock::{calibrate, InstructionClock, CALIBRATION_LOOPS};
+use semihosting_io::{HostInput, HostOutput};
+use status_log::StatusLog;
+
+// The defmt transport: frames on semihosting standard output.
+#[cfg(feature = "defmt")]
+use defmt_semihosting as _;
+
+// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: from the image's dimensions.
+include!(concat!(env!("OUT_DIR"), "/buffer_sizes.rs"));
+
+/// Bytes aligned to 16, as the image's payloads expect for direct word loads.
+#[repr(C, align(16))]
+struct Aligned<T: ?Sized>(T);
+
+/// The model image, in flash.
+static IMAGE: &Aligned<[u8]> = &Aligned(*include_bytes!(env!("INKLING_IMAGE_FILE")));
+
+/// The session's states, the engine's work space and its activation scratch, in RAM (.bss).
+static mut SESSION_STATES: [f32; SESSION_FLOATS] = [0.0; SESSION_FLOATS];
+static mut WORK: [f32; WORK_LEN] = [0.0; WORK_LEN];
+static mut ACT: [i16; ACT_LEN] = [0; ACT_LEN];
+
+/// Longest line of typed text; a longer line is cut, and the text cleared there.
+const LINE_CAPACITY: usize = 128;
+
+/// Text fed for the per-step and per-byte measurements (invented).
+const BENCH_TEXT: &[u8] = b"the keys on this panel offer words as you type them; \
+    a small model runs here in fixed memory and never grows.\n";
+
+/// Backspace keys: ASCII BS and DEL.
+fn is_backspace(key: u8) -> bool {
+    key == 0x08 || key == 0x7f
+}
+
+/// Keystroke figures: count, total and largest instructions, and search steps.
+#[derive(Debug, Default)]
+struct KeystrokeCost {
+    count: u64,
+    total: u64,
+    max: u64,
+    search_steps: u64,
+}
+
+impl KeystrokeCost {
+    fn add(&mut self, instructions: u64, search_steps: usize) {
+        self.count += 1;
+        self.total += instructions;
+        self.max = self.max.max(instructions);
+        self.search_steps += search_steps as u64;
+    }
+}
+
+/// Exits with `code` after logging `e` as the failure of `what`.
+fn fail(log: &mut StatusLog, what: &str, e: &dyn core::fmt::Display, code: ExitCode) -> ! {
+    log.failure(what, e);
+    exit(code)
+}
+
+#[entry]
+fn main() -> ! {
+    stack_paint::paint();
+    let mut log = StatusLog::open();
+    log.note("inkling firmware example: reading typed bytes from the host");
+    let Some(core) = cortex_m::Peripherals::take() else {
+        exit(ExitCode::Internal)
+    };
+    let clock = InstructionClock::start(core.SYST);
+
+    // Instructions per SysTick tick, checked on a loop of known length.
+    let calibration_ticks = calibrate(&clock);
+    let loop_instructions = 2 * u64::from(CALIBRATION_LOOPS);
+    let per_tick = (loop_instructions + calibration_ticks / 2) / calibration_ticks.max(1);
+    log.figure("calibration_instructions", loop_instructions);
+    log.figure("calibration_ticks", calibration_ticks);
+    log.figure("instructions_per_tick", per_tick);
+    let since = |start: u64| (clock.ticks() - start) * per_tick;
+
+    let start = clock.ticks();
+    let model = match Model::from_bytes(&IMAGE.0) {
+        Ok(model) => model,
+        Err(e) => fail(&mut log, "built-in image", &e, ExitCode::BadImage),
+    };
+    log.figure("validate_instructions", since(start));
+    let dims = *model.dims();
+    log.figure("image_bytes", IMAGE.0.len() as u64);
+    log.figure("state_bytes", dims.state_bytes() as u64);
+    log.figure("session_buffer_bytes", 4 * SESSION_FLOATS as u64);
+    log.figure("scratch_bytes", dims.scratch_bytes() as u64);
+
+    // SAFETY: the only references to these statics, taken once; no interrupt touches them.
+    let (states, work, act) = unsafe {
+        (
+            &mut *core::ptr::addr_of_mut!(SESSION_STATES),
+            &mut *core::ptr::addr_of_mut!(WORK),
+            &mut *core::ptr::addr_of_mut!(ACT),
+        )
+    };
+    let mut scratch = match Scratch::new(&dims, work, act) {
+        Ok(scratch) => scratch,
+        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
+    };
+
+    // One engine step, alone: the first state of the session buffer serves before the
+    // session takes it over.
+    if let Some(state) = states.get_mut(..dims.state_len()) {
+        state.fill(0.0);
+        let start = clock.ticks();
+        for &b in BENCH_TEXT {
+            if let Err(e) = step(&model, state, &mut scratch, b) {
+                fail(&mut log, "engine step", &e, ExitCode::Internal)
+            }
+        }
+        log.figure("step_instructions", since(start) / BENCH_TEXT.len() as u64);
+    }
+
+    let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {
+        Ok(session) => session,
+        Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
+    };
+    let options = SearchOptions::new(SUGGESTIONS);
+
+    // Suggestion lines on standard output; with defmt, its frames take standard output, so
+    // the lines go to standard error.
+    let output = if cfg!(feature = "defmt") {
+        HostOutput::stderr()
+    } else {
+        HostOutput::stdout()
+    };
+    let (input, mut output) = match (HostInput::open(), output) {
+        (Ok(input), Ok(output)) => (input, output),
+        (Err(e), _) | (_, Err(e)) => fail(&mut log, "host console", &e, ExitCode::Io),
+    };
+    let mut lines = LineReader::<_, LINE_CAPACITY>::new(input);
+    let mut typed = [0u8; LINE_CAPACITY];
+    let mut cost = KeystrokeCost::default();
+    loop {
+        let line = match lines.next_line() {
+            Ok(Some(line)) => line,
+            Ok(None) => break,
+            Err(e) => fail(&mut log, "reading typed input", &e, ExitCode::Io),
+        };
+        if let Err(e) = session.clear() {
+            fail(&mut log, "clearing the session", &e, ExitCode::Internal)
+        }
+        let mut len = 0usize;
+        for &key in line.bytes {
+            let start = clock.ticks();
+            let edited = if is_backspace(key) {
+                session.backspace().map(|deleted| {
+                    if deleted {
+                        len = len.saturating_sub(1);
+                    }
+                })
+            } else {
+                // A refused byte (the word is at its longest) leaves the text as it was.
+                session.push(key).map(|()| {
+                    if let Some(slot) = typed.get_mut(len) {
+                        *slot = key;
+                        len += 1;
+                    }
+                })
+            };
+            if let Err(e) = edited {
+                if !matches!(e, inkling_core::Error::CapacityExceeded { .. }) {
+                    fail(&mut log, "typing", &e, ExitCode::Internal)
+                }
+            }
+            let found = match session.suggest(&options) {
+                Ok(found) => found,
+                Err(e) => fail(&mut log, "suggesting", &e, ExitCode::Internal),
+            };
+            cost.add(since(start), found.steps);
+            let list = found.list.iter().map(|s| (s.text.as_slice(), s.logprob));
+            if let Err(e) = write_line(&mut output, typed.get(..len).unwrap_or(&[]), list) {
+                fail(&mut log, "writing suggestions", &e, ExitCode::Io)
+            }
+        }
+    }
+    log.figure("keystrokes", cost.count);
+    log.figure(
+        "keystroke_instructions_mean",
+        cost.total / cost.count.max(1),
+    );
+    log.figure("keystroke_instructions_max", cost.max);
+    log.figure(
+        "keystroke_search_steps_mean",
+        cost.search_steps / cost.count.max(1),
+    );
+
+    // Prefill: text fed through the session without asking for suggestions.
+    if let Err(e) = session.clear() {
+        fail(&mut log, "clearing the session", &e, ExitCode::Internal)
+    }
+    let start = clock.ticks();
+    for &b in BENCH_TEXT {
+        if let Err(e) = session.push(b) {
+            fail(&mut log, "prefill", &e, ExitCode::Internal)
+        }
+    }
+    log.figure(
+        "prefill_instructions_per_byte",
+        since(start) / BENCH_TEXT.len() as u64,
+    );
+
+    log.figure("stack_used_bytes", stack_paint::high_water_bytes() as u64);
+    log.figure("stack_capacity_bytes", stack_paint::capacity_bytes() as u64);
+    exit(ExitCode::Success)
+}

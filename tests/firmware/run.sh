@@ -1,0 +1,103 @@
+#!/usr/bin/env bash
+# Builds the firmware example, runs it on an emulated Cortex-M4F (QEMU mps2-an386) with
+# scripted typing piped in, and prints its figures: instructions per step, per keystroke and
+# per byte of prefill, flash and RAM from the linker's sections, and the stack high-water mark.
+#
+# usage: tests/firmware/run.sh [--profile release|release-o3] [--input FILE] [--out DIR]
+#                              [--skip-unit]
+#   --profile    cargo profile of the firmware build: release (opt-level "s", the default)
+#                or release-o3 (opt-level 3)
+#   --input      the typed bytes (default: typing.txt next to this script); each line is one
+#                typing session, each byte a keystroke, 0x08 or 0x7f a backspace
+#   --out        keep the results there: suggestions.txt (the firmware's standard output),
+#                figures.txt (NAME VALUE per line), log.txt (its status log)
+#   --skip-unit  do not run the firmware crate's unit tests on the host first
+# environment: INKLING_IMAGE picks the model image built in (see firmware-example/README.md).
+set -euo pipefail
+
+here=$(cd "$(dirname "$0")" && pwd)
+firmware="$here/../../firmware-example"
+profile=release
+input="$here/typing.txt"
+out=""
+unit=1
+while [ $# -gt 0 ]; do
+  case "$1" in
+    --profile) profile=$2; shift 2 ;;
+    --input) input=$2; shift 2 ;;
+    --out) out=$2; shift 2 ;;
+    --skip-unit) unit=0; shift ;;
+    *) echo "run.sh: unknown argument $1" >&2; exit 2 ;;
+  esac
+done
+case "$profile" in release|release-o3) ;; *) echo "run.sh: --profile must be release or release-o3" >&2; exit 2 ;; esac
+[ -f "$input" ] || { echo "run.sh: no input file $input" >&2; exit 2; }
+input=$(cd "$(dirname "$input")" && pwd)/$(basename "$input")
+keep=1
+if [ -z "$out" ]; then
+  out=$(mktemp -d)
+  keep=0
+  trap 'rm -rf "$out"' EXIT
+fi
+mkdir -p "$out"
+
+target=thumbv7em-none-eabihf
+# The firmware's own target dir, whatever the caller's is: a cargo running this script (a
+# test) may hold the lock on its own.
+export CARGO_TARGET_DIR="$firmware/target"
+
+if ! command -v qemu-system-arm >/dev/null; then
+  echo "== installing qemu-system-arm" >&2
+  sudo=""
+  [ "$(id -u)" -eq 0 ] || sudo=sudo
+  $sudo apt-get update -qq && $sudo apt-get install -y -qq qemu-system-arm >/dev/null
+fi
+if ! rustup target list --installed | grep -qx "$target"; then
+  echo "== adding the rustup target $target" >&2
+  rustup target add "$target"
+fi
+if ! rustup component list --installed | grep -q '^llvm-tools'; then
+  rustup component add llvm-tools
+fi
+
+cd "$firmware"
+if [ "$unit" -eq 1 ]; then
+  echo "== unit tests of the board-independent parts, on the host" >&2
+  host=$(rustc -vV | sed -n 's/^host: //p')
+  cargo test -j 2 --quiet --lib --target "$host" >&2
+fi
+
+echo "== building the firmware (profile $profile)" >&2
+cargo build -j 2 --quiet --profile "$profile"
+elf="$CARGO_TARGET_DIR/$target/$profile/inkling-firmware-example"
+
+echo "== running it in QEMU" >&2
+# Typed input reaches the firmware through semihosting; QEMU itself must not read stdin.
+status=0
+timeout 120 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
+  -display none -serial none -monitor none \
+  -semihosting-config enable=on,target=native -icount shift=0 \
+  -kernel "$elf" <"$input" >"$out/suggestions.txt" 2>"$out/log.txt" || status=$?
+if [ "$status" -ne 0 ]; then
+  echo "run.sh: the firmware exited with status $status (124: timed out)" >&2
+  cat "$out/log.txt" >&2
+  exit 1
+fi
+
+sed -n 's/^figure //p' "$out/log.txt" >"$out/figures.txt"
+# Sections: text (code and the model image, in flash), data (initial values in flash, live
+# in RAM), bss (zeroed RAM).
+size_tool=$(ls "$(rustc --print sysroot)"/lib/rustlib/*/bin/llvm-size | head -n 1)
+read -r text data bss _ < <("$size_tool" "$elf" | tail -n 1)
+{
+  echo "flash_text_bytes $text"
+  echo "flash_data_bytes $data"
+  echo "ram_bss_bytes $bss"
+  echo "flash_bytes $((text + data))"
+  echo "ram_static_bytes $((data + bss))"
+} >>"$out/figures.txt"
+
+echo "== figures (profile $profile; instruction counts, not cycles)"
+cat "$out/figures.txt"
+echo "== suggestions: $(wc -l <"$out/suggestions.txt") lines (one per keystroke)"
+[ "$keep" -eq 0 ] || echo "== results kept in $out"

@@ -1,0 +1,384 @@
+//! The firmware example on an emulated Cortex-M4F (QEMU mps2-an386), through
+//! `tests/firmware/run.sh`, against the host: the same image and the same keystrokes must give
+//! the same suggestions with the same f32 score bits, and the figures must fit the part.
+//!
+//! The host side is the core's typing session run here, keystroke by keystroke, and the
+//! `inkling` command: `suggest --json` when it has one, and `next --json`, whose logits must
+//! equal the host session's after the same text.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::sync::OnceLock;
+
+use inkling_core::session::{SearchOptions, Session};
+use inkling_core::{Model, Scratch};
+use serde_json::Value;
+
+/// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
+const SUGGESTIONS: usize = 3;
+/// The firmware's line buffer: longer lines are cut and the text cleared there.
+const LINE_CAPACITY: usize = 128;
+/// The flash and RAM of the part `firmware-example/memory.x` describes.
+const FLASH_BYTES: u64 = 512 * 1024;
+const RAM_BYTES: u64 = 128 * 1024;
+
+fn repo_root() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .expect("the tests crate sits in the repository")
+        .to_path_buf()
+}
+
+/// The image built into the firmware and loaded on the host.
+fn image_path() -> PathBuf {
+    repo_root().join("tests/data/firmware-default.inkl")
+}
+
+/// The scripted typing.
+fn typing_path() -> PathBuf {
+    repo_root().join("tests/firmware/typing.txt")
+}
+
+/// One output line: the text typed so far and the suggestions with their score bits.
+#[derive(Debug, Clone, PartialEq, Eq)]
+struct Keystroke {
+    text: Vec<u8>,
+    suggestions: Vec<(Vec<u8>, u32)>,
+}
+
+struct FirmwareRun {
+    keystrokes: Vec<Keystroke>,
+    figures: Vec<(String, u64)>,
+}
+
+impl FirmwareRun {
+    fn figure(&self, name: &str) -> u64 {
+        self.figures
+            .iter()
+            .find(|(n, _)| n == name)
+            .map(|&(_, v)| v)
+            .unwrap_or_else(|| panic!("the firmware run reported no figure {name}"))
+    }
+}
+
+/// Undoes the firmware's escaping (`\xNN` for bytes outside printable ASCII, backslash, tab).
+fn unescape(field: &str) -> Vec<u8> {
+    let bytes = field.as_bytes();
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i < bytes.len() {
+        if bytes[i] == b'\\' {
+            let hex = field
+                .get(i + 2..i + 4)
+                .filter(|_| bytes.get(i + 1) == Some(&b'x'))
+                .unwrap_or_else(|| panic!("bad escape at byte {i} of {field:?}"));
+            out.push(u8::from_str_radix(hex, 16).expect("two hex digits"));
+            i += 4;
+        } else {
+            out.push(bytes[i]);
+            i += 1;
+        }
+    }
+    out
+}
+
+fn parse_bits(text: &str, source: &str) -> u32 {
+    let hex = text
+        .strip_prefix("0x")
+        .unwrap_or_else(|| panic!("{source}: score {text:?} is not 0x-prefixed"));
+    u32::from_str_radix(hex, 16).unwrap_or_else(|e| panic!("{source}: score {text:?}: {e}"))
+}
+
+fn parse_keystroke(line: &str) -> Keystroke {
+    let fields: Vec<&str> = line.split('\t').collect();
+    assert!(
+        fields.len() % 2 == 1,
+        "firmware line {line:?}: a suggestion without its score"
+    );
+    let suggestions = fields[1..]
+        .chunks(2)
+        .map(|pair| (unescape(pair[0]), parse_bits(pair[1], "firmware")))
+        .collect();
+    Keystroke {
+        text: unescape(fields[0]),
+        suggestions,
+    }
+}
+
+/// Runs the script once for all the tests of this file.
+fn firmware_run() -> &'static FirmwareRun {
+    static RUN: OnceLock<FirmwareRun> = OnceLock::new();
+    RUN.get_or_init(|| {
+        let out = tempfile::tempdir().expect("temporary folder");
+        let script = repo_root().join("tests/firmware/run.sh");
+        let output = Command::new("bash")
+            .arg(&script)
+            .args(["--skip-unit", "--input"])
+            .arg(typing_path())
+            .arg("--out")
+            .arg(out.path())
+            .env("INKLING_IMAGE", image_path())
+            .output()
+            .unwrap_or_else(|e| panic!("could not start {}: {e}", script.display()));
+        assert!(
+            output.status.success(),
+            "{} failed ({}):\n{}{}",
+            script.display(),
+            output.status,
+            String::from_utf8_lossy(&output.stdout),
+            String::from_utf8_lossy(&output.stderr)
+        );
+        let read = |name: &str| {
+            let path = out.path().join(name);
+            std::fs::read_to_string(&path)
+                .unwrap_or_else(|e| panic!("reading {}: {e}", path.display()))
+        };
+        let keystrokes = read("suggestions.txt")
+            .lines()
+            .map(parse_keystroke)
+            .collect();
+        let figures = read("figures.txt")
+            .lines()
+            .map(|l| {
+                let (name, value) = l.split_once(' ').expect("NAME VALUE");
+                (name.to_string(), value.parse().expect("an integer figure"))
+            })
+            .collect();
+        FirmwareRun {
+            keystrokes,
+            figures,
+        }
+    })
+}
+
+/// What the firmware does with the typed bytes, done here with the same core on the host.
+fn host_session_replay(image: &[u8], typed: &[u8]) -> Vec<Keystroke> {
+    let model = Model::from_bytes(image).expect("the image is valid");
+    let dims = *model.dims();
+    let mut states = vec![0.0f32; dims.session_floats(SUGGESTIONS)];
+    let mut work = vec![0.0f32; dims.work_len()];
+    let mut act = vec![0i16; dims.act_len()];
+    let scratch = Scratch::new(&dims, &mut work, &mut act).expect("scratch");
+    let mut session = Session::<_, SUGGESTIONS>::new(model, &mut states, scratch).expect("session");
+    let options = SearchOptions::new(SUGGESTIONS);
+    let mut out = Vec::new();
+    let lines = typed
+        .split(|&b| b == b'\n')
+        .filter(|l| !l.is_empty())
+        .flat_map(|l| l.chunks(LINE_CAPACITY));
+    for line in lines {
+        session.clear().expect("clear");
+        let mut text = Vec::new();
+        for &key in line {
+            if key == 0x08 || key == 0x7f {
+                if session.backspace().expect("backspace") {
+                    text.pop();
+                }
+            } else {
+                match session.push(key) {
+                    Ok(()) => text.push(key),
+                    Err(inkling_core::Error::CapacityExceeded { .. }) => {}
+                    Err(e) => panic!("push {key:#04x}: {e}"),
+                }
+            }
+            let found = session.suggest(&options).expect("suggest");
+            out.push(Keystroke {
+                text: text.clone(),
+                suggestions: found
+                    .list
+                    .iter()
+                    .map(|s| (s.text.as_slice().to_vec(), s.logprob.to_bits()))
+                    .collect(),
+            });
+        }
+    }
+    out
+}
+
+fn show(k: &Keystroke) -> String {
+    let list: Vec<String> = k
+        .suggestions
+        .iter()
+        .map(|(t, b)| format!("{:?} {b:#010x}", String::from_utf8_lossy(t)))
+        .collect();
+    format!(
+        "{:?}: {}",
+        String::from_utf8_lossy(&k.text),
+        list.join(", ")
+    )
+}
+
+#[test]
+fn suggestions_match_the_host_session_bit_for_bit() {
+    let run = firmware_run();
+    let typed = std::fs::read(typing_path()).expect("typing.txt");
+    let image = std::fs::read(image_path()).expect("the image");
+    // One output line per keystroke: every byte of the input but the line feeds.
+    let keys = typed.iter().filter(|&&b| b != b'\n').count();
+    assert_eq!(run.keystrokes.len(), keys, "one line per keystroke");
+    let host = host_session_replay(&image, &typed);
+    for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
+        // The design's promise: int8 sums plus libm in a fixed order give the same f32 bits
+        // on the host and on the Cortex-M4F.
+        assert_eq!(
+            device,
+            host,
+            "keystroke {i}: firmware {} / host {}",
+            show(device),
+            show(host)
+        );
+    }
+    assert!(
+        run.keystrokes
+            .iter()
+            .any(|k| k.suggestions.len() == SUGGESTIONS),
+        "no keystroke got {SUGGESTIONS} suggestions"
+    );
+}
+
+/// The `inkling` binary next to the test executable (`target/<profile>/deps/../inkling`).
+fn inkling_binary() -> PathBuf {
+    let exe = std::env::current_exe().expect("the test executable's path");
+    exe.parent()
+        .expect("the test executable's folder")
+        .join("..")
+        .join(format!("inkling{}", std::env::consts::EXE_SUFFIX))
+}
+
+fn inkling_json(args: &[&std::ffi::OsStr]) -> Value {
+    let binary = inkling_binary();
+    let output = Command::new(&binary)
+        .args(args)
+        .output()
+        .unwrap_or_else(|e| panic!("could not start {}: {e}", binary.display()));
+    assert!(
+        output.status.success(),
+        "inkling {args:?} failed ({}): {}",
+        output.status,
+        String::from_utf8_lossy(&output.stderr)
+    );
+    serde_json::from_slice(&output.stdout)
+        .unwrap_or_else(|e| panic!("inkling {args:?} printed no JSON object: {e}"))
+}
+
+fn has_subcommand(name: &str) -> bool {
+    Command::new(inkling_binary())
+        .args([name, "--help"])
+        .output()
+        .is_ok_and(|o| o.status.success())
+}
+
+/// The keystrokes whose text can travel as a command-line argument (non-empty UTF-8).
+fn texts(run: &FirmwareRun) -> Vec<(&Keystroke, &str)> {
+    run.keystrokes
+        .iter()
+        .filter_map(|k| Some((k, std::str::from_utf8(&k.text).ok()?)))
+        .filter(|(_, t)| !t.is_empty())
+        .collect()
+}
+
+#[test]
+fn suggestions_match_the_inkling_command() {
+    assert!(
+        inkling_binary().is_file(),
+        "the inkling binary is missing at {}: build it first with \
+         `cargo build --release -p inkling-host` (same target dir as the tests)",
+        inkling_binary().display()
+    );
+    let run = firmware_run();
+    let image = image_path();
+    if has_subcommand("suggest") {
+        for (k, text) in texts(run) {
+            let json = inkling_json(&[
+                "suggest".as_ref(),
+                image.as_os_str(),
+                "--text".as_ref(),
+                text.as_ref(),
+                "--count".as_ref(),
+                "3".as_ref(),
+                "--json".as_ref(),
+            ]);
+            let list = json["suggestions"]
+                .as_array()
+                .unwrap_or_else(|| panic!("inkling suggest: no \"suggestions\" in {json}"));
+            let host: Vec<(Vec<u8>, u32)> = list
+                .iter()
+                .map(|s| {
+                    let hex = s["text_hex"].as_str().expect("a \"text_hex\" string");
+                    let t: Vec<u8> = (0..hex.len())
+                        .step_by(2)
+                        .map(|i| u8::from_str_radix(&hex[i..i + 2], 16).expect("hex bytes"))
+                        .collect();
+                    let bits = s["logprob_bits"]
+                        .as_str()
+                        .expect("a \"logprob_bits\" string");
+                    (t, parse_bits(bits, "inkling suggest"))
+                })
+                .collect();
+            assert_eq!(k.suggestions, host, "text {text:?}: {}", show(k));
+        }
+    } else {
+        eprintln!("inkling has no `suggest` yet: checking `inkling next` against the host session");
+    }
+    // `inkling next` on the same text gives the logits the session suggested from.
+    let bytes = std::fs::read(&image).expect("the image");
+    let model = Model::from_bytes(&bytes).expect("the image is valid");
+    let dims = *model.dims();
+    let mut states = vec![0.0f32; dims.session_floats(SUGGESTIONS)];
+    let mut work = vec![0.0f32; dims.work_len()];
+    let mut act = vec![0i16; dims.act_len()];
+    let scratch = Scratch::new(&dims, &mut work, &mut act).expect("scratch");
+    let mut session = Session::<_, SUGGESTIONS>::new(model, &mut states, scratch).expect("session");
+    let mut checked = 0;
+    for (_, text) in texts(run).into_iter().step_by(7) {
+        session.clear().expect("clear");
+        session.push_bytes(text.as_bytes()).expect("push");
+        // The session starts from its prime byte, a line feed: so does the command's text.
+        let primed = format!("\n{text}");
+        let json = inkling_json(&[
+            "next".as_ref(),
+            image.as_os_str(),
+            "--text".as_ref(),
+            primed.as_ref(),
+            "--json".as_ref(),
+        ]);
+        let logits = json["logits"]
+            .as_array()
+            .unwrap_or_else(|| panic!("inkling next: no \"logits\" in {json}"));
+        assert_eq!(logits.len(), 256, "inkling next: 256 logits");
+        for (b, (cli, &ours)) in logits.iter().zip(session.logits()).enumerate() {
+            // JSON carries the shortest decimal that reads back as the same f32.
+            let cli = cli.as_f64().expect("a number") as f32;
+            assert_eq!(
+                cli.to_bits(),
+                ours.to_bits(),
+                "text {text:?}, byte {b}: {cli} vs {ours}"
+            );
+        }
+        checked += 1;
+    }
+    assert!(checked > 0, "no text to check");
+}
+
+#[test]
+fn figures_fit_the_part_and_the_clock_is_calibrated() {
+    let run = firmware_run();
+    // QEMU -icount shift=0: one instruction per ns of virtual time; the mps2 SysTick runs at
+    // 25 MHz, so 40 instructions per tick (QEMU documentation and mps2 board model, from
+    // memory; measured again here on a loop of known length).
+    assert_eq!(run.figure("instructions_per_tick"), 40);
+    let used_ram = run.figure("ram_static_bytes") + run.figure("stack_used_bytes");
+    assert!(used_ram <= RAM_BYTES, "RAM {used_ram} > {RAM_BYTES}");
+    assert!(run.figure("flash_bytes") <= FLASH_BYTES);
+    // The image is in flash (text), not in initialised RAM (data).
+    assert!(run.figure("flash_text_bytes") >= run.figure("image_bytes"));
+    assert!(run.figure("flash_data_bytes") < run.figure("image_bytes"));
+    for name in [
+        "step_instructions",
+        "keystroke_instructions_mean",
+        "prefill_instructions_per_byte",
+    ] {
+        assert!(run.figure(name) > 0, "{name} is 0");
+    }
+    assert!(run.figure("keystroke_instructions_max") >= run.figure("keystroke_instructions_mean"));
+}
