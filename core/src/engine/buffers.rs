@@ -2,6 +2,11 @@
 
 use crate::error::Error;
 use crate::image::dims::Dims;
+use crate::image::format::VOCAB;
+
+/// The most bytes one prefill pass takes, however large the scratch (it bounds the stack
+/// array of per-byte activation scales).
+pub const MAX_CHUNK: usize = 32;
 
 /// The scratch of one step: f32 work space and the quantised-activation buffer. One scratch
 /// serves any number of states (beams) of the same model, one step at a time.
@@ -20,8 +25,8 @@ use crate::image::dims::Dims;
 pub struct Scratch<'b> {
     pub(crate) work: &'b mut [f32],
     pub(crate) act: &'b mut [i16],
-    /// Where the logits start in `work`.
-    logits_at: usize,
+    /// Bytes one prefill pass takes (see [`Scratch::chunk_capacity`]).
+    chunk: usize,
 }
 
 /// Checks that a buffer has at least `needed` elements.
@@ -43,17 +48,30 @@ impl<'b> Scratch<'b> {
     pub fn new(dims: &Dims, work: &'b mut [f32], act: &'b mut [i16]) -> Result<Self, Error> {
         check_len("work", dims.work_len(), work.len())?;
         check_len("act", dims.act_len(), act.len())?;
-        Ok(Scratch {
-            work,
-            act,
-            logits_at: dims.work_len() - crate::image::format::VOCAB,
-        })
+        let by_work = (work.len() - VOCAB) / (dims.work_len() - VOCAB).max(1);
+        let by_act = act.len() / dims.act_len().max(1);
+        let chunk = by_work.min(by_act).clamp(1, MAX_CHUNK);
+        Ok(Scratch { work, act, chunk })
     }
 
     /// The logits of the last step (256 values).
     pub fn logits(&self) -> &[f32] {
-        let end = self.logits_at + crate::image::format::VOCAB;
-        self.work.get(self.logits_at..end).unwrap_or(&[])
+        self.work.get(..VOCAB).unwrap_or(&[])
+    }
+
+    /// How many bytes one pass of [`prefill`](super::recurrence::prefill) takes: as many as
+    /// the buffers hold, from 1 (buffers of [`Dims::work_len`] and [`Dims::act_len`]) up to
+    /// [`MAX_CHUNK`] (buffers of [`Dims::chunk_work_len`] and [`Dims::chunk_act_len`] for it).
+    ///
+    /// ```
+    /// use inkling_core::{Scratch, image::example::TINY_DIMS as D};
+    /// let mut work = vec![0.0f32; D.chunk_work_len(16)];
+    /// let mut act = vec![0i16; D.chunk_act_len(16)];
+    /// assert_eq!(Scratch::new(&D, &mut work, &mut act)?.chunk_capacity(), 16);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn chunk_capacity(&self) -> usize {
+        self.chunk
     }
 }
 

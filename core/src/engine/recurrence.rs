@@ -1,4 +1,4 @@
-//! One step of the model: a byte in, the next byte's logits out.
+//! The model, run over bytes: a byte in, the next byte's logits out.
 //!
 //! Per byte `b`, with the residual `u = byte_embed[b]`, each block computes (Gu & Dao 2023,
 //! Sec. 3 and Alg. 2, pre-norm residual):
@@ -16,12 +16,19 @@
 //!
 //! The state of one block is its convolution window `[I, K-1]` (oldest first) followed by
 //! its SSM state `[I, N]`; blocks follow each other. It starts at zero.
+//!
+//! [`prefill`] runs several known bytes block by block, so that each weight row is read once
+//! for the whole chunk and the output head only for the last byte; [`step`] is a prefill of
+//! one byte. Every value is computed by the same operations in the same order either way,
+//! so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
 use super::buffers::{check_len, Scratch};
 use super::nonlinear::{rms_norm, silu, softplus};
 use super::weights::Weights;
 use crate::error::Error;
+use crate::image::dims::Dims;
 use crate::image::format::{Role, VOCAB};
+use crate::image::views::Floats;
 
 /// Splits `n` elements off the front of `buf` (all of it when shorter).
 fn carve<T>(buf: &mut [T], n: usize) -> (&mut [T], &mut [T]) {
@@ -32,8 +39,8 @@ fn carve<T>(buf: &mut [T], n: usize) -> (&mut [T], &mut [T]) {
 /// Runs one byte through the model, updating `state`, and returns the 256 logits of the
 /// next byte (they stay in `scratch` until the next step).
 ///
-/// `state` must hold [`Dims::state_len`](crate::Dims::state_len) values (zeros for a fresh
-/// start); `scratch` must have been made for the same dimensions.
+/// `state` must hold [`Dims::state_len`] values (zeros for a fresh start); `scratch` must
+/// have been made for the same dimensions.
 ///
 /// ```
 /// use inkling_core::{Model, Scratch, engine::recurrence::step};
@@ -53,95 +60,224 @@ pub fn step<'s, W: Weights + ?Sized>(
     scratch: &'s mut Scratch<'_>,
     byte: u8,
 ) -> Result<&'s [f32], Error> {
+    prefill(weights, state, scratch, &[byte])
+}
+
+/// Runs known bytes through the model, updating `state`, and returns the logits after the
+/// last one. The bytes go through in passes of [`Scratch::chunk_capacity`] bytes; each pass
+/// reads every weight matrix once. The result is bit-identical to calling [`step`] for
+/// each byte. An empty `bytes` leaves the state alone and returns the last logits.
+///
+/// ```
+/// use inkling_core::{Model, Scratch, engine::recurrence::{prefill, step}};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = Model::from_bytes(&image)?;
+/// let d = *model.dims();
+/// let (mut work, mut act) = (vec![0.0; d.chunk_work_len(8)], vec![0; d.chunk_act_len(8)]);
+/// let mut chunked = Scratch::new(&d, &mut work, &mut act)?;
+/// let mut a = vec![0.0; d.state_len()];
+/// let fast = prefill(&model, &mut a, &mut chunked, b"hello there")?.to_vec();
+///
+/// let (mut work1, mut act1) = (vec![0.0; d.work_len()], vec![0; d.act_len()]);
+/// let mut single = Scratch::new(&d, &mut work1, &mut act1)?;
+/// let mut b = vec![0.0; d.state_len()];
+/// for &byte in b"hello there" {
+///     step(&model, &mut b, &mut single, byte)?;
+/// }
+/// assert_eq!(fast, single.logits());
+/// assert_eq!(a, b);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
+pub fn prefill<'s, W: Weights + ?Sized>(
+    weights: &W,
+    state: &mut [f32],
+    scratch: &'s mut Scratch<'_>,
+    bytes: &[u8],
+) -> Result<&'s [f32], Error> {
     let d = *weights.dims();
     check_len("state", d.state_len(), state.len())?;
-    let (i_n, n, k, r) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank);
-    let per_block = i_n * (k - 1 + n);
+    let chunk = scratch.chunk_capacity();
+    let passes = bytes.len().div_ceil(chunk);
+    for (pass, part) in bytes.chunks(chunk).enumerate() {
+        run_pass(weights, &d, state, scratch, part, pass + 1 == passes);
+    }
+    Ok(scratch.logits())
+}
 
+/// The per-byte work areas of one pass, each `t` vectors long.
+struct PassAreas<'a> {
+    u: &'a mut [f32],
+    h: &'a mut [f32],
+    xz: &'a mut [f32],
+    rbc: &'a mut [f32],
+    dt: &'a mut [f32],
+    xy: &'a mut [f32],
+}
+
+/// One pass over `bytes` (at most the scratch's chunk capacity), block by block.
+fn run_pass<W: Weights + ?Sized>(
+    weights: &W,
+    d: &Dims,
+    state: &mut [f32],
+    scratch: &mut Scratch<'_>,
+    bytes: &[u8],
+    logits_wanted: bool,
+) {
+    let t = bytes.len();
+    let (i_n, n, k, r, dm) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank, d.d_model);
     let work = &mut *scratch.work;
-    let (u, rest) = carve(work, d.d_model);
-    let (h, rest) = carve(rest, d.d_model);
-    let (xz, rest) = carve(rest, 2 * i_n);
-    let (rbc, rest) = carve(rest, r + 2 * n);
-    let (dt, rest) = carve(rest, i_n);
-    let (y, rest) = carve(rest, i_n);
-    let (logits, _) = carve(rest, VOCAB);
+    let (logits, rest) = carve(work, VOCAB);
+    let (u, rest) = carve(rest, t * dm);
+    let (h, rest) = carve(rest, t * dm);
+    let (xz, rest) = carve(rest, t * 2 * i_n);
+    let (rbc, rest) = carve(rest, t * (r + 2 * n));
+    let (dt, rest) = carve(rest, t * i_n);
+    let (xy, _) = carve(rest, t * i_n);
+    let mut a = PassAreas {
+        u,
+        h,
+        xz,
+        rbc,
+        dt,
+        xy,
+    };
     let act = &mut *scratch.act;
 
-    weights.embed(byte, u);
+    for (&b, u_t) in bytes.iter().zip(a.u.chunks_exact_mut(dm)) {
+        weights.embed(b, u_t);
+    }
+    let per_block = i_n * (k - 1 + n);
     for (l, block_state) in state.chunks_exact_mut(per_block).enumerate() {
-        rms_norm(u, weights.floats(l, Role::Norm), d.norm_eps, h);
-        weights.matvec(l, Role::Expand, h, act, xz);
-        let (x, z) = carve(xz, i_n);
-        let (window, ssm) = carve(block_state, i_n * (k - 1));
+        run_block(weights, d, l, block_state, &mut a, t, act);
+    }
+    if logits_wanted {
+        let last = a.u.chunks_exact(dm).last().unwrap_or(&[]);
+        let h0 = a.h.get_mut(..dm).unwrap_or(&mut []);
+        rms_norm(last, weights.floats(0, Role::FinalNorm), d.norm_eps, h0);
+        weights.matvec(0, Role::Head, h0, act, logits);
+    }
+}
 
-        // Causal depthwise convolution over the window (oldest first) and the new x.
-        let conv = weights.floats(l, Role::Conv);
-        let conv_bias = weights.floats(l, Role::ConvBias);
-        for (i, xi) in x.iter_mut().enumerate() {
-            let taps = conv.slice(i * k, k);
-            let past = window
-                .get_mut(i * (k - 1)..(i + 1) * (k - 1))
-                .unwrap_or(&mut []);
-            let mut acc = conv_bias.get(i);
-            for (tap, &p) in taps.iter().zip(past.iter()) {
-                acc += tap * p;
-            }
-            acc += taps.get(k - 1) * *xi;
-            if let Some(last) = past.len().checked_sub(1) {
-                past.copy_within(1.., 0);
-                if let Some(newest) = past.get_mut(last) {
-                    *newest = *xi;
-                }
-            }
-            *xi = silu(acc);
-        }
+/// Block `l` over the `t` bytes of a pass.
+fn run_block<W: Weights + ?Sized>(
+    weights: &W,
+    d: &Dims,
+    l: usize,
+    block_state: &mut [f32],
+    a: &mut PassAreas<'_>,
+    t: usize,
+    act: &mut [i16],
+) {
+    let (i_n, n, k, r, dm) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank, d.d_model);
+    let (window, ssm) = carve(block_state, i_n * (k - 1));
+    let norm = weights.floats(l, Role::Norm);
+    for (u_t, h_t) in a.u.chunks_exact(dm).zip(a.h.chunks_exact_mut(dm)) {
+        rms_norm(u_t, norm, d.norm_eps, h_t);
+    }
+    weights.matvec_chunk(l, Role::Expand, a.h, t, act, a.xz);
 
-        // Input-dependent step size, input and output projections.
-        weights.matvec(l, Role::Select, x, act, rbc);
-        let (rank, bc) = carve(rbc, r);
-        let (b, c) = carve(bc, n);
-        let step = weights.floats(l, Role::Step);
-        let step_bias = weights.floats(l, Role::StepBias);
-        for (i, dti) in dt.iter_mut().enumerate() {
+    // Causal depthwise convolution, byte after byte; x goes to its own contiguous area.
+    let conv = weights.floats(l, Role::Conv);
+    let conv_bias = weights.floats(l, Role::ConvBias);
+    for (xz_t, x_t) in a.xz.chunks_exact(2 * i_n).zip(a.xy.chunks_exact_mut(i_n)) {
+        x_t.copy_from_slice(xz_t.get(..i_n).unwrap_or(&[]));
+        convolve(x_t, window, conv, conv_bias, k);
+    }
+
+    // Input-dependent step size, input and output projections.
+    weights.matvec_chunk(l, Role::Select, a.xy, t, act, a.rbc);
+    let step = weights.floats(l, Role::Step);
+    let step_bias = weights.floats(l, Role::StepBias);
+    for (rbc_t, dt_t) in a.rbc.chunks_exact(r + 2 * n).zip(a.dt.chunks_exact_mut(i_n)) {
+        let rank = rbc_t.get(..r).unwrap_or(&[]);
+        for (i, dti) in dt_t.iter_mut().enumerate() {
             let mut acc = 0.0f32;
-            for (w, &ri) in step.slice(i * r, r).iter().zip(rank.iter()) {
+            for (w, &ri) in step.slice(i * r, r).iter().zip(rank) {
                 acc += w * ri;
             }
             *dti = softplus(acc + step_bias.get(i));
         }
+    }
 
-        // Selective scan (zero-order hold for A, Euler for B), output and gate.
-        let decay = weights.floats(l, Role::Decay);
-        let skip = weights.floats(l, Role::Skip);
-        for (i, ((yi, s), &xi)) in y
+    // Selective scan, byte after byte; y replaces x in place.
+    let scan = ScanWeights {
+        decay: weights.floats(l, Role::Decay),
+        skip: weights.floats(l, Role::Skip),
+        n,
+    };
+    for (((xy_t, dt_t), rbc_t), xz_t) in a
+        .xy
+        .chunks_exact_mut(i_n)
+        .zip(a.dt.chunks_exact(i_n))
+        .zip(a.rbc.chunks_exact(r + 2 * n))
+        .zip(a.xz.chunks_exact(2 * i_n))
+    {
+        let bc = rbc_t.get(r..).unwrap_or(&[]);
+        let (b, c) = bc.split_at(n.min(bc.len()));
+        let z = xz_t.get(i_n..).unwrap_or(&[]);
+        scan.step(ssm, xy_t, dt_t, b, c, z);
+    }
+
+    weights.matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
+    for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
+        *ui += hi;
+    }
+}
+
+/// One byte of the causal depthwise convolution: `x[i] = silu(bias[i] + Σ_k conv[i,k] ·
+/// (window[i] then x[i]))`, and the window moves on by one.
+fn convolve(x: &mut [f32], window: &mut [f32], conv: Floats<'_>, bias: Floats<'_>, k: usize) {
+    for (i, xi) in x.iter_mut().enumerate() {
+        let taps = conv.slice(i * k, k);
+        let past = window
+            .get_mut(i * (k - 1)..(i + 1) * (k - 1))
+            .unwrap_or(&mut []);
+        let mut acc = bias.get(i);
+        for (tap, &p) in taps.iter().zip(past.iter()) {
+            acc += tap * p;
+        }
+        acc += taps.get(k - 1) * *xi;
+        if let Some(last) = past.len().checked_sub(1) {
+            past.copy_within(1.., 0);
+            if let Some(newest) = past.get_mut(last) {
+                *newest = *xi;
+            }
+        }
+        *xi = silu(acc);
+    }
+}
+
+/// The float weights of the selective scan of one block.
+struct ScanWeights<'a> {
+    decay: Floats<'a>,
+    skip: Floats<'a>,
+    n: usize,
+}
+
+impl ScanWeights<'_> {
+    /// One byte of the scan (zero-order hold for A, Euler for B), output and gate:
+    /// `xy` holds x on entry and y on return.
+    fn step(&self, ssm: &mut [f32], xy: &mut [f32], dt: &[f32], b: &[f32], c: &[f32], z: &[f32]) {
+        let n = self.n;
+        for (i, ((yi, s), (&dti, &zi))) in xy
             .iter_mut()
             .zip(ssm.chunks_exact_mut(n))
-            .zip(x.iter())
+            .zip(dt.iter().zip(z))
             .enumerate()
         {
-            let dti = dt.get(i).copied().unwrap_or(0.0);
+            let xi = *yi;
             let dx = dti * xi;
             let mut acc = 0.0f32;
             for (((sn, a), &bn), &cn) in s
                 .iter_mut()
-                .zip(decay.slice(i * n, n).iter())
-                .zip(b.iter())
-                .zip(c.iter())
+                .zip(self.decay.slice(i * n, n).iter())
+                .zip(b)
+                .zip(c)
             {
                 *sn = libm::expf(dti * a) * *sn + dx * bn;
                 acc += *sn * cn;
             }
-            let zi = z.get(i).copied().unwrap_or(0.0);
-            *yi = (acc + skip.get(i) * xi) * silu(zi);
-        }
-
-        weights.matvec(l, Role::Contract, y, act, h);
-        for (ui, &hi) in u.iter_mut().zip(h.iter()) {
-            *ui += hi;
+            *yi = (acc + self.skip.get(i) * xi) * silu(zi);
         }
     }
-    rms_norm(u, weights.floats(0, Role::FinalNorm), d.norm_eps, h);
-    weights.matvec(0, Role::Head, h, act, logits);
-    Ok(scratch.logits())
 }

@@ -26,6 +26,27 @@ pub trait Weights {
     /// `Contract`), or the output head with [`Role::Head`]. `act` is scratch for the
     /// quantised input (at least `input.len()` elements).
     fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]);
+
+    /// [`matvec`](Weights::matvec) for `t` inputs at once: `inputs` is `[t][cols]`, `out`
+    /// `[t][rows]`, `act` at least `inputs.len()` elements. Each output must equal what
+    /// `matvec` gives for its input; a source may read each weight row once for all `t`.
+    fn matvec_chunk(
+        &self,
+        block: usize,
+        role: Role,
+        inputs: &[f32],
+        t: usize,
+        act: &mut [i16],
+        out: &mut [f32],
+    ) {
+        let (cols, rows) = (inputs.len() / t.max(1), out.len() / t.max(1));
+        if cols == 0 || rows == 0 {
+            return;
+        }
+        for (x, o) in inputs.chunks_exact(cols).zip(out.chunks_exact_mut(rows)) {
+            self.matvec(block, role, x, act, o);
+        }
+    }
 }
 
 impl Weights for Model<'_> {
@@ -80,5 +101,17 @@ impl<T: Weights + ?Sized> Weights for &T {
 
     fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]) {
         (**self).matvec(block, role, input, act, out)
+    }
+
+    fn matvec_chunk(
+        &self,
+        block: usize,
+        role: Role,
+        inputs: &[f32],
+        t: usize,
+        act: &mut [i16],
+        out: &mut [f32],
+    ) {
+        (**self).matvec_chunk(block, role, inputs, t, act, out)
     }
 }

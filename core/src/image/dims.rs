@@ -50,9 +50,9 @@ impl Dims {
         4 * self.state_len()
     }
 
-    /// f32 elements of the scratch the engine needs for one step (shared by all states):
-    /// residual and normalised residual `[D]` each, `[x; z]` `[2I]`, `[r; B; C]` `[R + 2N]`,
-    /// step sizes and block output `[I]` each, and the logits `[256]`.
+    /// f32 elements of the scratch the engine needs for one step (shared by all states): the
+    /// logits `[256]`, residual and normalised residual `[D]` each, `[x; z]` `[2I]`,
+    /// `[r; B; C]` `[R + 2N]`, step sizes and block input/output `[I]` each.
     pub const fn work_len(&self) -> usize {
         2 * self.d_model
             + 2 * self.d_inner
@@ -60,6 +60,17 @@ impl Dims {
             + 2 * self.d_state
             + 2 * self.d_inner
             + VOCAB
+    }
+
+    /// f32 elements of scratch for prefilling `chunk` bytes in one pass: the logits once and
+    /// everything else of [`Dims::work_len`] once per byte.
+    pub const fn chunk_work_len(&self, chunk: usize) -> usize {
+        VOCAB + chunk * (self.work_len() - VOCAB)
+    }
+
+    /// i16 elements of activation scratch for prefilling `chunk` bytes in one pass.
+    pub const fn chunk_act_len(&self, chunk: usize) -> usize {
+        chunk * self.act_len()
     }
 
     /// i16 elements of the quantised-activation scratch: the widest matrix input.

@@ -407,6 +407,118 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     pub fn weights(&self) -> &W {
         &self.weights
     }
+
+    /// f32 elements [`save`](Session::save) writes: the live state and the boundary
+    /// snapshot, each with the logits after it.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// let state_len = session.weights().dims().state_len();
+    /// assert_eq!(session.saved_len(), 2 * (state_len + 256));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn saved_len(&self) -> usize {
+        2 * Slots::stride(self.weights.dims().state_len())
+    }
+
+    /// Copies the live state and the boundary snapshot (with their logits) into the first
+    /// [`saved_len`](Session::saved_len) elements of `out`. With [`word`](Session::word)
+    /// and [`history`](Session::history) this is everything a session over the same model
+    /// needs to continue exactly where this one is (see [`restore`](Session::restore)).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::Session};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"hi")?;
+    /// let mut saved = [0.0f32; 1024];
+    /// session.save(&mut saved)?;
+    /// assert!(session.save(&mut saved[..3]).is_err());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn save(&self, out: &mut [f32]) -> Result<(), Error> {
+        let (needed, actual) = (self.saved_len(), out.len());
+        let stride = needed / 2;
+        let out = out.get_mut(..needed).ok_or(Error::BufferTooSmall {
+            buffer: "saved session",
+            needed,
+            actual,
+        })?;
+        for (slots, dst) in [&self.live, &self.boundary]
+            .into_iter()
+            .zip(out.chunks_exact_mut(stride))
+        {
+            let (state, logits) = slots.parts(0);
+            for (d, &v) in dst.iter_mut().zip(state.iter().chain(logits)) {
+                *d = v;
+            }
+        }
+        Ok(())
+    }
+
+    /// Continues from a state saved by [`save`](Session::save) of a session over the same
+    /// model, with that session's [`word`](Session::word) and [`history`](Session::history):
+    /// afterwards this session behaves bit for bit as that one did. A `saved` shorter than
+    /// [`saved_len`](Session::saved_len) or a word longer than [`MAX_WORD_LEN`] is refused
+    /// and changes nothing.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let (mut floats, mut floats2) = ([0.0f32; 8192], [0.0f32; 8192]);
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let (mut work2, mut act2) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// # let scratch2 = Scratch::new(model.dims(), &mut work2, &mut act2)?;
+    /// let mut first = Session::<_, 2>::new(model, &mut floats, scratch)?;
+    /// first.push_bytes(b"see yo")?;
+    /// let mut saved = [0.0f32; 1024];
+    /// first.save(&mut saved)?;
+    /// let mut second = Session::<_, 2>::new(model, &mut floats2, scratch2)?;
+    /// second.restore(&saved, first.word(), first.history())?;
+    /// assert_eq!(second.logits(), first.logits());
+    /// assert_eq!(second.suggest(&SearchOptions::new(2))?, first.suggest(&SearchOptions::new(2))?);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn restore(
+        &mut self,
+        saved: &[f32],
+        word: &[u8],
+        history: &TextHistory<H>,
+    ) -> Result<(), Error> {
+        let (needed, actual) = (self.saved_len(), saved.len());
+        let state_len = self.weights.dims().state_len();
+        let saved = saved.get(..needed).ok_or(Error::BufferTooSmall {
+            buffer: "saved session",
+            needed,
+            actual,
+        })?;
+        let mut restored = WordBuffer::new();
+        for &b in word {
+            restored.push(b)?;
+        }
+        for (slots, src) in [&mut self.live, &mut self.boundary]
+            .into_iter()
+            .zip(saved.chunks_exact(needed / 2))
+        {
+            let (state, logits) = src.split_at_checked(state_len).unwrap_or((&[], &[]));
+            slots.load(0, state, logits);
+        }
+        self.word = restored;
+        self.history = history.clone();
+        Ok(())
+    }
 }
 
 #[cfg(test)]

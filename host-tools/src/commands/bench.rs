@@ -3,11 +3,16 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
+use inkling_core::engine::recurrence::prefill;
 use inkling_core::engine::weights::Weights;
+use inkling_core::Scratch;
 
 use crate::error::HostError;
 use crate::model_file::ModelFile;
 use crate::text_scoring::HostEngine;
+
+/// Bytes per prefill pass that `bench` measures.
+const PREFILL_CHUNK: usize = 16;
 
 /// Arguments of `inkling bench`.
 #[derive(Debug, clap::Args)]
@@ -25,14 +30,19 @@ pub struct BenchArgs {
     pub json: bool,
 }
 
-/// Steps per second of `weights` over `n` bytes of a fixed pseudo-text (median of 3 runs).
-fn steps_per_second(weights: &dyn Weights, n: usize) -> f64 {
-    let text: Vec<u8> = b"the quick brown fox jumps over the lazy dog; "
+/// `n` bytes of a fixed pseudo-text.
+fn bench_text(n: usize) -> Vec<u8> {
+    b"the quick brown fox jumps over the lazy dog; "
         .iter()
         .cycle()
         .take(n)
         .copied()
-        .collect();
+        .collect()
+}
+
+/// Steps per second of `weights` over `n` bytes of a fixed pseudo-text (median of 3 runs).
+fn steps_per_second(weights: &dyn Weights, n: usize) -> f64 {
+    let text = bench_text(n);
     let mut rates: Vec<f64> = (0..3)
         .map(|_| {
             let mut engine = HostEngine::new(weights);
@@ -49,10 +59,31 @@ fn steps_per_second(weights: &dyn Weights, n: usize) -> f64 {
     rates[1]
 }
 
+/// Bytes per second of chunked prefill in passes of `chunk` bytes (median of 3 runs).
+fn prefill_bytes_per_second(weights: &dyn Weights, n: usize, chunk: usize) -> f64 {
+    let d = *weights.dims();
+    let text = bench_text(n);
+    let mut rates: Vec<f64> = (0..3)
+        .map(|_| {
+            let mut state = vec![0.0; d.state_len()];
+            let mut work = vec![0.0; d.chunk_work_len(chunk)];
+            let mut act = vec![0; d.chunk_act_len(chunk)];
+            let start = Instant::now();
+            if let Ok(mut scratch) = Scratch::new(&d, &mut work, &mut act) {
+                let _ = std::hint::black_box(prefill(weights, &mut state, &mut scratch, &text));
+            }
+            n as f64 / start.elapsed().as_secs_f64()
+        })
+        .collect();
+    rates.sort_by(f64::total_cmp);
+    rates[1]
+}
+
 /// Runs `inkling bench`.
 pub fn run(args: &BenchArgs) -> Result<(), HostError> {
     let model = ModelFile::open(&args.model)?;
     let rate = model.with_weights(|w| steps_per_second(w, args.bytes));
+    let prefill_rate = model.with_weights(|w| prefill_bytes_per_second(w, args.bytes, PREFILL_CHUNK));
     let other = match &args.against {
         Some(p) => {
             let f = ModelFile::open(p)?;
@@ -67,6 +98,8 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
         let mut v = serde_json::json!({
             "model": args.model, "engine": model.engine_name(),
             "step_bytes_per_second": rate, "step_microseconds": 1e6 / rate,
+            "prefill_chunk": PREFILL_CHUNK, "prefill_bytes_per_second": prefill_rate,
+            "prefill_cost_per_byte_vs_step": rate / prefill_rate,
         });
         if let Some((engine, r)) = other {
             v["against"] = serde_json::json!({"engine": engine, "step_bytes_per_second": r});

@@ -128,11 +128,19 @@ pub fn write_svg(path: &Path, points: &[CurvePoint]) -> Result<(), TrainError> {
             coords.join(" ")
         );
     };
-    line(
-        &mut s,
-        points.iter().map(|p| (p.step as f64, bpb(p))).collect(),
-        "#1f77b4",
-    );
+    // At most ~1000 vertices: consecutive steps averaged (a long run stays a small file).
+    let per = points.len().div_ceil(1000).max(1);
+    let train: Vec<(f64, f64)> = points
+        .chunks(per)
+        .map(|c| {
+            let n = c.len() as f64;
+            (
+                c.iter().map(|p| p.step as f64).sum::<f64>() / n,
+                c.iter().map(bpb).sum::<f64>() / n,
+            )
+        })
+        .collect();
+    line(&mut s, train, "#1f77b4");
     line(
         &mut s,
         points
