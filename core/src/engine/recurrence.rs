@@ -23,7 +23,7 @@
 //! so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
 use super::buffers::{check_len, Scratch};
-use super::nonlinear::{rms_norm, silu, softplus};
+use super::nonlinear::{exp, rms_norm, silu, softplus};
 use super::weights::Weights;
 use crate::error::Error;
 use crate::image::dims::Dims;
@@ -188,7 +188,11 @@ fn run_block<W: Weights + ?Sized>(
     weights.matvec_chunk(l, Role::Select, a.xy, t, act, a.rbc);
     let step = weights.floats(l, Role::Step);
     let step_bias = weights.floats(l, Role::StepBias);
-    for (rbc_t, dt_t) in a.rbc.chunks_exact(r + 2 * n).zip(a.dt.chunks_exact_mut(i_n)) {
+    for (rbc_t, dt_t) in a
+        .rbc
+        .chunks_exact(r + 2 * n)
+        .zip(a.dt.chunks_exact_mut(i_n))
+    {
         let rank = rbc_t.get(..r).unwrap_or(&[]);
         for (i, dti) in dt_t.iter_mut().enumerate() {
             let mut acc = 0.0f32;
@@ -205,12 +209,11 @@ fn run_block<W: Weights + ?Sized>(
         skip: weights.floats(l, Role::Skip),
         n,
     };
-    for (((xy_t, dt_t), rbc_t), xz_t) in a
-        .xy
-        .chunks_exact_mut(i_n)
-        .zip(a.dt.chunks_exact(i_n))
-        .zip(a.rbc.chunks_exact(r + 2 * n))
-        .zip(a.xz.chunks_exact(2 * i_n))
+    for (((xy_t, dt_t), rbc_t), xz_t) in
+        a.xy.chunks_exact_mut(i_n)
+            .zip(a.dt.chunks_exact(i_n))
+            .zip(a.rbc.chunks_exact(r + 2 * n))
+            .zip(a.xz.chunks_exact(2 * i_n))
     {
         let bc = rbc_t.get(r..).unwrap_or(&[]);
         let (b, c) = bc.split_at(n.min(bc.len()));
@@ -274,7 +277,7 @@ impl ScanWeights<'_> {
                 .zip(b)
                 .zip(c)
             {
-                *sn = libm::expf(dti * a) * *sn + dx * bn;
+                *sn = exp(dti * a) * *sn + dx * bn;
                 acc += *sn * cn;
             }
             *yi = (acc + self.skip.get(i) * xi) * silu(zi);

@@ -1,0 +1,13 @@
+//! The integer inner loops of the matrix-vector products, one module per kind of core.
+//!
+//! - [`portable`]: plain Rust, written in fixed-size chunks so that the compiler turns it into
+//!   SIMD on the workstation; it also serves every core without the kernels below.
+//! - `cortex_m4`: SXTB16 + SMLAD (two 16-bit multiply-accumulates per instruction) through
+//!   inline assembly, four weight rows per pass, on 32-bit Arm cores with the DSP extension.
+//!
+//! Every kernel returns the exact integer sums (mod 2^32) of the portable one, so the f32
+//! results built on them are the same bits on every target.
+
+#[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
+pub mod cortex_m4;
+pub mod portable;
