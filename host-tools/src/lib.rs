@@ -2,6 +2,7 @@
 
 pub mod commands;
 pub mod error;
+pub mod keystroke_savings;
 pub mod model_file;
 pub mod text_scoring;
 pub mod train;

@@ -29,6 +29,10 @@ enum Command {
     Keys(commands::keys::KeysArgs),
     /// Host speed of the engine.
     Bench(commands::bench::BenchArgs),
+    /// The model shapes that fit a part's flash and RAM, and their speed on a Cortex-M4F.
+    Budget(commands::budget::BudgetArgs),
+    /// Type in the terminal with the suggestions shown at every key.
+    Try(commands::try_screen::TryArgs),
     /// The bundled demo model, end to end.
     Demo(commands::demo::DemoArgs),
 }
@@ -43,8 +47,10 @@ fn main() {
         Command::Eval(a) => commands::eval::run(a),
         Command::Demo(a) => commands::demo::run(a),
         Command::Bench(a) => commands::bench::run(a),
+        Command::Budget(a) => commands::budget::run(a),
         Command::Suggest(a) => commands::suggest::run(a),
         Command::Keys(a) => commands::keys::run(a),
+        Command::Try(a) => commands::try_screen::run(a),
     };
     if let Err(e) = result {
         eprintln!("inkling: {e}");

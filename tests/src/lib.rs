@@ -1,8 +1,10 @@
 //! Shared helpers for the cross-crate tests: the `inkling` binary run as a subprocess, the numpy
-//! reference scripts under `tests/reference/`, the random checkpoint shapes they are run on, and
-//! the arithmetic that compares two sets of logits.
+//! reference scripts under `tests/reference/`, the random checkpoint shapes they are run on, the
+//! arithmetic that compares two sets of logits, and the bodies of the fuzz targets.
 
+pub mod bench_models;
 pub mod checkpoint_spec;
+pub mod fuzz_bodies;
 pub mod inkling_cli;
 pub mod logits;
 pub mod numpy_reference;

@@ -83,7 +83,8 @@ fn prefill_bytes_per_second(weights: &dyn Weights, n: usize, chunk: usize) -> f6
 pub fn run(args: &BenchArgs) -> Result<(), HostError> {
     let model = ModelFile::open(&args.model)?;
     let rate = model.with_weights(|w| steps_per_second(w, args.bytes));
-    let prefill_rate = model.with_weights(|w| prefill_bytes_per_second(w, args.bytes, PREFILL_CHUNK));
+    let prefill_rate =
+        model.with_weights(|w| prefill_bytes_per_second(w, args.bytes, PREFILL_CHUNK));
     let other = match &args.against {
         Some(p) => {
             let f = ModelFile::open(p)?;

@@ -4,9 +4,15 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 
+use inkling_core::session::{KeyMap, SearchOptions, DEFAULT_MAX_STEPS};
 use inkling_core::Model;
 
+use super::suggest::MAX_COUNT;
 use crate::error::HostError;
+use crate::keystroke_savings::simulation::whole_words;
+use crate::keystroke_savings::{
+    compare, simulate_with, FrequencyBaseline, ModelPredictor, Offer, SessionMemory,
+};
 use crate::model_file::ModelFile;
 use crate::text_scoring::{bits_per_byte, log_softmax, HostEngine};
 
@@ -27,6 +33,9 @@ pub struct DemoArgs {
     /// Bytes of each held-out text to score (the model and the compressors see the same slice).
     #[arg(long, default_value_t = 20_000)]
     pub eval_bytes: usize,
+    /// Bytes of held-out scenario text typed for the keystroke savings (cut to a word boundary).
+    #[arg(long, default_value_t = 2_000)]
+    pub savings_bytes: usize,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
@@ -51,6 +60,141 @@ const PROMPTS: [&str; 4] = [
     "Path closed between ",
     "Weather: ",
 ];
+
+/// Sentences the typing section types key by key (invented, in the scenario's style).
+const TYPED: [&str; 3] = [
+    "Base to Pendrick Hut: the path is closed after the rockfall.",
+    "Rope bag checked: 60 m rope, 8 slings and 10 carabiners.",
+    "Rain since 07:00, heavy at times.",
+];
+
+/// 12-key entries: the text before the word, and the keys of the word (ITU-T E.161).
+const KEYED: [(&str, &str); 2] = [("The path is ", "256733"), ("Rain since 07:00, ", "43289")];
+
+/// Suggestions shown in the typing section.
+const SHOWN: usize = 3;
+
+/// The held-out text the savings are measured on, and the baseline's word counts (training text).
+const SAVINGS_TEXT: &str = "data/scenario/heldout.txt";
+const SAVINGS_CORPUS: &str = "data/scenario/train.txt";
+
+/// One look of the simulated writer, for the screen and the JSON: shown at each word start
+/// and where a suggestion is taken.
+fn look_json(offer: &Offer<'_>) -> serde_json::Value {
+    serde_json::json!({
+        "typed": String::from_utf8_lossy(offer.typed),
+        "offered": offer.words.iter().map(|w| String::from_utf8_lossy(w)).collect::<Vec<_>>(),
+        "taken": offer.taken.map(|i| String::from_utf8_lossy(&offer.words[i]).into_owned()),
+    })
+}
+
+/// The typing section: scripted sentences, 12-key entry, and keystroke savings against the
+/// word-frequency baseline on held-out scenario text.
+fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostError> {
+    let image_error = |source| HostError::Image {
+        path: args.image.clone(),
+        source,
+    };
+    if !args.json {
+        println!(
+            "\n== typing with the int8 model, {SHOWN} suggestions; a suggestion that is the word is taken with one key"
+        );
+    }
+    let mut sentences = Vec::new();
+    for sentence in TYPED {
+        let mut looks = Vec::new();
+        let keys = image
+            .with_weights(|w| {
+                let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
+                let session = memory.session::<_, MAX_COUNT>(w)?;
+                let mut predictor = ModelPredictor::new(session, DEFAULT_MAX_STEPS);
+                simulate_with(sentence.as_bytes(), SHOWN, &mut predictor, |offer| {
+                    let at_word_start = offer
+                        .typed
+                        .last()
+                        .is_none_or(|&b| inkling_core::session::is_boundary(b));
+                    if at_word_start || offer.taken.is_some() {
+                        looks.push(look_json(offer));
+                    }
+                })
+            })
+            .map_err(image_error)?;
+        if !args.json {
+            println!("  {sentence}");
+            for look in &looks {
+                let offered: Vec<&str> = look["offered"]
+                    .as_array()
+                    .map(|a| a.iter().filter_map(|w| w.as_str()).collect())
+                    .unwrap_or_default();
+                let taken = look["taken"]
+                    .as_str()
+                    .map_or(String::new(), |t| format!("   <- takes \"{t}\""));
+                let typed = look["typed"].as_str().unwrap_or_default();
+                let skip = typed.chars().count().saturating_sub(24);
+                let tail: String = typed.chars().skip(skip).collect();
+                println!("    {tail:>24}|  {}{taken}", offered.join(" · "));
+            }
+            println!(
+                "    {} keys instead of {} ({:.0}% saved)",
+                keys.keys,
+                keys.bytes,
+                100.0 * keys.savings(true, false)
+            );
+        }
+        sentences.push(serde_json::json!({
+            "text": sentence, "letters": keys.bytes, "keys": keys.keys, "looks": looks,
+        }));
+    }
+
+    if !args.json {
+        println!("\n== 12-key entry (ITU-T E.161: 2 abc, 3 def, 4 ghi, 5 jkl, 6 mno, 7 pqrs, 8 tuv, 9 wxyz)");
+    }
+    let mut keyed = Vec::new();
+    for (context, digits) in KEYED {
+        let found = image
+            .with_weights(|w| {
+                let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
+                let mut session = memory.session::<_, MAX_COUNT>(w)?;
+                session.push_bytes(context.as_bytes())?;
+                session.keys(digits.as_bytes(), &KeyMap::E161, &SearchOptions::new(SHOWN))
+            })
+            .map_err(image_error)?;
+        let words: Vec<String> = found
+            .list
+            .iter()
+            .map(|s| String::from_utf8_lossy(&s.text).into_owned())
+            .collect();
+        if !args.json {
+            println!("  \"{context}\" + keys {digits}  ->  {}", words.join(" · "));
+        }
+        keyed.push(serde_json::json!({"context": context, "digits": digits, "words": words}));
+    }
+
+    let text_path = repo_path(SAVINGS_TEXT);
+    let corpus_path = repo_path(SAVINGS_CORPUS);
+    let text = std::fs::read(&text_path).map_err(HostError::io(&text_path))?;
+    let corpus = std::fs::read(&corpus_path).map_err(HostError::io(&corpus_path))?;
+    let mut baseline = FrequencyBaseline::from_corpus(&corpus);
+    let slice = whole_words(&text, args.savings_bytes);
+    if !args.json {
+        println!(
+            "\n== keystroke savings on held-out scenario text, against the {} most frequent training words that fit the prefix",
+            SHOWN
+        );
+    }
+    let found = image
+        .with_weights(|w| compare(w, &mut baseline, slice, SHOWN, DEFAULT_MAX_STEPS, |_| {}))
+        .map_err(image_error)?;
+    if !args.json {
+        found.print();
+    }
+    let mut savings = found.to_json();
+    savings["text"] = serde_json::json!(SAVINGS_TEXT);
+    savings["baseline_corpus"] = serde_json::json!(SAVINGS_CORPUS);
+    Ok(serde_json::json!({
+        "sentences": sentences, "twelve_key": keyed, "keystroke_savings": savings,
+    }))
+}
 
 /// Bits per byte of `text` compressed by `program args` (run as a separate process), if it runs.
 fn compressed_bits_per_byte(program: &str, args: &[&str], text: &[u8]) -> Option<f64> {
@@ -166,6 +310,7 @@ pub fn run(args: &DemoArgs) -> Result<(), HostError> {
         continuations.push(serde_json::json!({"prompt": p, "continuation": c}));
     }
     report["continuations"] = serde_json::json!(continuations);
+    report["typing"] = typing(&image, args)?;
     if args.json {
         println!("{report}");
     }

@@ -1,10 +1,23 @@
-//! `inkling eval`: bits per byte of a text, optionally beside another model.
+//! `inkling eval`: bits per byte of a text, optionally beside another model, and with
+//! `--savings` the keystroke savings of word completion on it against a word-frequency
+//! baseline.
+//!
+//! Keystroke savings (Trnka & McCoy 2008, "Evaluating Word Prediction: Framing Keystroke
+//! Savings", ACL-08): KS = (keys letter by letter − keys with prediction) / keys letter by
+//! letter, for a writer who takes a suggestion with one key as soon as it is exactly the word
+//! being typed. The headline figure counts the selection key and inserts no space after a
+//! taken word; the other framings are reported beside it. See
+//! [`keystroke_savings`](crate::keystroke_savings) for the simulation.
 
 use std::path::{Path, PathBuf};
 
 use indicatif::{ProgressBar, ProgressStyle};
+use inkling_core::session::DEFAULT_MAX_STEPS;
 
+use super::suggest::MAX_COUNT;
 use crate::error::HostError;
+use crate::keystroke_savings::simulation::whole_words;
+use crate::keystroke_savings::{compare, Comparison, FrequencyBaseline};
 use crate::model_file::ModelFile;
 use crate::text_scoring::bits_per_byte;
 
@@ -22,6 +35,24 @@ pub struct EvalArgs {
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
+    /// Also simulate a writer who takes a suggestion as soon as it is the word being typed,
+    /// and report the keystroke savings of the model and of the baseline.
+    #[arg(long)]
+    pub savings: bool,
+    /// Suggestions shown at each key (for --savings), at most 16.
+    #[arg(long, default_value_t = 3, requires = "savings")]
+    pub count: usize,
+    /// The word-frequency source of the baseline (for --savings): a text other than --text,
+    /// e.g. the training text. It offers its most frequent words that fit the typed prefix.
+    #[arg(long, requires = "savings")]
+    pub baseline_corpus: Option<PathBuf>,
+    /// Bytes of --text to type for --savings (cut back to a word boundary): the model takes
+    /// a search, up to --max-steps engine steps, per key.
+    #[arg(long, default_value_t = 5000, requires = "savings")]
+    pub max_bytes: usize,
+    /// Engine steps each search may take (for --savings).
+    #[arg(long, default_value_t = DEFAULT_MAX_STEPS, requires = "savings")]
+    pub max_steps: usize,
 }
 
 fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), HostError> {
@@ -40,6 +71,53 @@ fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), H
     Ok((bpb, file.engine_name()))
 }
 
+/// The keystroke savings of `args.model` and of the baseline on the start of `text`.
+fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
+    if args.count > MAX_COUNT {
+        return Err(HostError::Usage(format!(
+            "--count {} is more than the {MAX_COUNT} a session holds",
+            args.count
+        )));
+    }
+    let corpus_path = args.baseline_corpus.as_ref().ok_or_else(|| {
+        HostError::Usage(
+            "--savings needs --baseline-corpus FILE: the baseline's word counts must come \
+             from a text other than --text (e.g. the training text)"
+                .into(),
+        )
+    })?;
+    let same = |a: &Path, b: &Path| match (a.canonicalize(), b.canonicalize()) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    };
+    if same(corpus_path, &args.text) {
+        return Err(HostError::Usage(format!(
+            "--baseline-corpus {}: is the --text file itself; a baseline that has counted \
+             the text it is scored on would be cheating",
+            corpus_path.display()
+        )));
+    }
+    let corpus = std::fs::read(corpus_path).map_err(HostError::io(corpus_path))?;
+    let mut baseline = FrequencyBaseline::from_corpus(&corpus);
+    let text = whole_words(text, args.max_bytes);
+    let file = ModelFile::open(&args.model)?;
+    let bar = ProgressBar::new(text.len() as u64);
+    bar.set_style(
+        ProgressStyle::with_template("keystrokes [{bar:30}] {pos}/{len} bytes ({eta})")
+            .unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
+    let found = file.with_weights(|w| {
+        compare(w, &mut baseline, text, args.count, args.max_steps, |at| {
+            bar.set_position(at as u64)
+        })
+    });
+    bar.finish_and_clear();
+    found.map_err(|source| HostError::Image {
+        path: args.model.clone(),
+        source,
+    })
+}
+
 /// Runs `inkling eval`.
 pub fn run(args: &EvalArgs) -> Result<(), HostError> {
     let text = std::fs::read(&args.text).map_err(HostError::io(&args.text))?;
@@ -54,6 +132,7 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
         Some(p) => Some((p, score(p, &text, "against")?)),
         None => None,
     };
+    let savings = args.savings.then(|| savings(args, &text)).transpose()?;
     if args.json {
         let mut v = serde_json::json!({
             "model": args.model,
@@ -69,6 +148,11 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
             v["difference"] = serde_json::json!(bpb - obpb);
             v["relative_difference"] = serde_json::json!((bpb - obpb) / obpb);
         }
+        if let (Some(found), Some(corpus)) = (&savings, &args.baseline_corpus) {
+            let mut ks = found.to_json();
+            ks["baseline_corpus"] = serde_json::json!(corpus);
+            v["keystroke_savings"] = ks;
+        }
         println!("{v}");
     } else {
         println!(
@@ -83,6 +167,9 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
                 bpb - obpb,
                 100.0 * (bpb - obpb) / obpb
             );
+        }
+        if let Some(found) = &savings {
+            found.print();
         }
     }
     Ok(())

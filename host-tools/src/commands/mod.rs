@@ -1,6 +1,7 @@
 //! One module per `inkling` command: its arguments and what it does.
 
 pub mod bench;
+pub mod budget;
 pub mod convert;
 pub mod demo;
 pub mod eval;
@@ -9,6 +10,7 @@ pub mod keys;
 pub mod next;
 pub mod suggest;
 pub mod train;
+pub mod try_screen;
 
 /// RAM of a typing session with `beams` suggestions and the default text history, in bytes.
 pub fn session_ram(dims: &inkling_core::Dims, beams: usize) -> usize {

@@ -1,0 +1,189 @@
+//! `inkling budget`: the model shapes that fit a part's flash and RAM, with the predicted
+//! instructions per step and milliseconds per keystroke on a Cortex-M4F.
+//!
+//! Flash is the exact image size plus the firmware's code (largest measured); RAM is the
+//! typing session's buffers ([`Dims::session_bytes`]) plus the largest stack high-water mark
+//! measured, plus a margin. Instructions come from [`CostModel`], fitted to the firmware's
+//! counts under QEMU; time assumes one instruction per cycle, an optimistic bound (flash wait
+//! states and multi-cycle instructions make a real part slower).
+
+#[path = "../cost_model/mod.rs"]
+pub mod cost_model;
+
+use cost_model::{calibration, image_bytes, Calibration, CostModel};
+use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::Dims;
+
+use crate::error::HostError;
+
+/// Stack on top of the largest measured high-water mark (common practice, no source: keep
+/// a margin for interrupt handlers and the application's own calls).
+pub const STACK_MARGIN: usize = 2048;
+
+/// Arguments of `inkling budget`.
+#[derive(Debug, clap::Args)]
+pub struct BudgetArgs {
+    /// Flash of the part (bytes, or with K or M: 512K, 1M).
+    #[arg(long, value_parser = parse_size)]
+    pub flash: usize,
+    /// RAM of the part (bytes, or with K or M).
+    #[arg(long, value_parser = parse_size)]
+    pub ram: usize,
+    /// Core clock in MHz.
+    #[arg(long, default_value_t = 64.0)]
+    pub clock: f64,
+    /// Suggestions per keystroke.
+    #[arg(long, default_value_t = 3)]
+    pub beams: usize,
+    /// How many shapes to show.
+    #[arg(long, default_value_t = 5)]
+    pub top: usize,
+    /// Print one JSON object.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `512K`, `1M`, `4096` → bytes (K = 1024).
+pub fn parse_size(text: &str) -> Result<usize, String> {
+    let t = text.trim();
+    let (digits, unit) = match t.char_indices().last() {
+        Some((i, c)) if c.eq_ignore_ascii_case(&'k') => (&t[..i], 1024),
+        Some((i, c)) if c.eq_ignore_ascii_case(&'m') => (&t[..i], 1024 * 1024),
+        _ => (t, 1),
+    };
+    digits
+        .parse::<usize>()
+        .ok()
+        .and_then(|n| n.checked_mul(unit))
+        .ok_or_else(|| format!("{text:?} is not a size (bytes, or a number with K or M)"))
+}
+
+/// One shape that fits, with what it costs.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Candidate {
+    /// The shape.
+    pub dims: Dims,
+    /// Flash: image and firmware code.
+    pub flash_bytes: usize,
+    /// The image alone.
+    pub image_bytes: usize,
+    /// RAM: session buffers and stack.
+    pub ram_bytes: usize,
+    /// Predicted instructions per step.
+    pub step_instructions: f64,
+    /// Predicted instructions per keystroke.
+    pub keystroke_instructions: f64,
+}
+
+/// The shapes of the enumeration: blocks 1..=6, d_model 32..=256 in steps of 16, d_inner
+/// 1×, 1.5× or 2× d_model (multiples of 16), d_state 4, 8 or 16; K 4, R = ceil(D/16).
+pub fn shapes() -> impl Iterator<Item = Dims> {
+    (1..=6).flat_map(|blocks| {
+        (32..=256).step_by(16).flat_map(move |d| {
+            [d, d * 3 / 2, 2 * d]
+                .into_iter()
+                .filter(|i| i % 16 == 0)
+                .flat_map(move |i| [4, 8, 16].map(|n| calibration::shape(d, i, n, blocks)))
+        })
+    })
+}
+
+/// Every shape that fits `flash` and `ram`, largest model (most MACs per step) first.
+pub fn fitting(model: &CostModel, flash: usize, ram: usize, beams: usize) -> Vec<Candidate> {
+    let max_steps = SearchOptions::new(beams).max_steps;
+    let mut out: Vec<Candidate> = shapes()
+        .map(|dims| {
+            let image = image_bytes(&dims, false);
+            Candidate {
+                dims,
+                flash_bytes: image + model.code_bytes,
+                image_bytes: image,
+                ram_bytes: dims.session_bytes(beams, DEFAULT_HISTORY)
+                    + model.stack_bytes
+                    + STACK_MARGIN,
+                step_instructions: model.step_instructions(&dims),
+                keystroke_instructions: model.keystroke_instructions(&dims, beams, max_steps),
+            }
+        })
+        .filter(|c| c.flash_bytes <= flash && c.ram_bytes <= ram)
+        .collect();
+    out.sort_by(|a, b| {
+        b.dims.macs_per_step().cmp(&a.dims.macs_per_step()).then(
+            a.keystroke_instructions
+                .total_cmp(&b.keystroke_instructions),
+        )
+    });
+    out
+}
+
+/// Runs `inkling budget`.
+pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
+    let cal = Calibration::parse(calibration::BUILT_IN)
+        .map_err(|e| HostError::Usage(format!("built-in firmware measurements: {e}")))?;
+    let model = CostModel::fit(&cal).ok_or_else(|| {
+        HostError::Usage("built-in firmware measurements: too few shapes to fit".into())
+    })?;
+    let found = fitting(&model, args.flash, args.ram, args.beams);
+    let ms = |instructions: f64| instructions / (args.clock * 1e3);
+    let shown: Vec<&Candidate> = found.iter().take(args.top).collect();
+    if args.json {
+        let list: Vec<_> = shown
+            .iter()
+            .map(|c| {
+                serde_json::json!({
+                    "d_model": c.dims.d_model, "d_inner": c.dims.d_inner,
+                    "d_state": c.dims.d_state, "d_conv": c.dims.d_conv,
+                    "dt_rank": c.dims.dt_rank, "blocks": c.dims.blocks,
+                    "macs_per_step": c.dims.macs_per_step(),
+                    "image_bytes": c.image_bytes, "flash_bytes": c.flash_bytes,
+                    "ram_bytes": c.ram_bytes,
+                    "step_instructions": c.step_instructions.round(),
+                    "keystroke_instructions": c.keystroke_instructions.round(),
+                    "keystroke_ms": ms(c.keystroke_instructions),
+                    "bytes_per_second": args.clock * 1e6 / c.step_instructions,
+                })
+            })
+            .collect();
+        let v = serde_json::json!({
+            "flash_bytes": args.flash, "ram_bytes": args.ram, "clock_mhz": args.clock,
+            "beams": args.beams, "fitting": found.len(), "shapes": list,
+            "assumptions": {
+                "code_bytes": model.code_bytes,
+                "stack_bytes": model.stack_bytes + STACK_MARGIN,
+                "steps_per_keystroke": model.steps_per_keystroke(args.beams, SearchOptions::new(args.beams).max_steps),
+                "instructions_per_cycle": 1.0,
+            },
+        });
+        println!("{v}");
+        return Ok(());
+    }
+    println!(
+        "{} of {} shapes fit {} B flash and {} B RAM ({} suggestions, {} MHz; code {} B, stack {} B assumed; \
+         time at one instruction per cycle, an optimistic bound):",
+        found.len(),
+        shapes().count(),
+        args.flash,
+        args.ram,
+        args.beams,
+        args.clock,
+        model.code_bytes,
+        model.stack_bytes + STACK_MARGIN
+    );
+    println!("blocks d_model d_inner d_state   MACs/step  flash B    RAM B  instr/step  ms/keystroke  bytes/s");
+    for c in shown {
+        println!(
+            "{:>6} {:>7} {:>7} {:>7} {:>11} {:>8} {:>8} {:>11.0} {:>13.1} {:>8.0}",
+            c.dims.blocks,
+            c.dims.d_model,
+            c.dims.d_inner,
+            c.dims.d_state,
+            c.dims.macs_per_step(),
+            c.flash_bytes,
+            c.ram_bytes,
+            c.step_instructions,
+            ms(c.keystroke_instructions),
+            args.clock * 1e6 / c.step_instructions
+        );
+    }
+    Ok(())
+}

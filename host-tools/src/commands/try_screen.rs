@@ -1,0 +1,288 @@
+//! `inkling try`: type in the terminal and watch the suggestions follow every key.
+//!
+//! Keys (chosen to work in any plain terminal; digits and letters are text):
+//! - letters, digits, punctuation, space: typed;
+//! - `Tab`: take the marked suggestion (the first unless moved), the word is completed and
+//!   nothing is inserted after it;
+//! - `Up` / `Down`: move the mark;
+//! - `Enter`: a new line (the end of a message, as in the training text);
+//! - `Backspace`: delete the last character (inside a word or across a boundary);
+//! - `Esc` or `Ctrl-C`: quit; the terminal is restored however the screen ends.
+
+use std::io::{self, Write};
+use std::path::PathBuf;
+
+use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use crossterm::style::Print;
+use crossterm::terminal::{self, ClearType};
+use crossterm::{cursor, execute, queue};
+use inkling_core::engine::weights::Weights;
+use inkling_core::session::{SearchOptions, Session, Suggestions, DEFAULT_MAX_STEPS};
+
+use super::suggest::MAX_COUNT;
+use crate::error::HostError;
+use crate::keystroke_savings::SessionMemory;
+use crate::model_file::ModelFile;
+
+/// Lines of typed text kept on the screen (the oldest scroll off).
+const TEXT_LINES: usize = 6;
+
+/// Arguments of `inkling try`.
+#[derive(Debug, clap::Args)]
+pub struct TryArgs {
+    /// An image (int8 engine) or a checkpoint (float engine).
+    pub model: PathBuf,
+    /// How many suggestions, at most 16.
+    #[arg(long, default_value_t = 3)]
+    pub count: usize,
+    /// Engine steps each search may take.
+    #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
+    pub max_steps: usize,
+}
+
+/// Raw mode and the alternate screen, given back when dropped (also on error or panic).
+struct RawTerminal;
+
+impl RawTerminal {
+    fn enter() -> io::Result<Self> {
+        terminal::enable_raw_mode()?;
+        let guard = RawTerminal;
+        execute!(io::stdout(), terminal::EnterAlternateScreen, cursor::Hide)?;
+        Ok(guard)
+    }
+}
+
+impl Drop for RawTerminal {
+    fn drop(&mut self) {
+        // Nothing more can be done if the terminal refuses; the shell's `reset` still works.
+        let _ = execute!(io::stdout(), cursor::Show, terminal::LeaveAlternateScreen);
+        let _ = terminal::disable_raw_mode();
+    }
+}
+
+/// What one key asks for.
+enum Action {
+    Type(Vec<u8>),
+    Take,
+    Mark(isize),
+    Delete,
+    Quit,
+    Ignore,
+}
+
+fn action(key: &KeyEvent) -> Action {
+    let ctrl = key.modifiers.contains(KeyModifiers::CONTROL);
+    match key.code {
+        KeyCode::Esc => Action::Quit,
+        KeyCode::Char('c') if ctrl => Action::Quit,
+        KeyCode::Char(c) if !ctrl && !key.modifiers.contains(KeyModifiers::ALT) => {
+            Action::Type(c.to_string().into_bytes())
+        }
+        KeyCode::Enter => Action::Type(vec![b'\n']),
+        KeyCode::Tab => Action::Take,
+        KeyCode::Up => Action::Mark(-1),
+        KeyCode::Down => Action::Mark(1),
+        KeyCode::Backspace => Action::Delete,
+        _ => Action::Ignore,
+    }
+}
+
+/// Bytes of the last character of `text`: the shortest tail that is valid UTF-8, else 1.
+fn last_char_len(text: &[u8]) -> usize {
+    (1..=4.min(text.len()))
+        .find(|&n| std::str::from_utf8(&text[text.len() - n..]).is_ok())
+        .unwrap_or(1)
+}
+
+/// The screen's state: the session, the text it has seen and what it offers.
+struct Screen<'b, W: Weights> {
+    session: Session<'b, W, MAX_COUNT>,
+    options: SearchOptions<'static>,
+    text: Vec<u8>,
+    found: Suggestions<MAX_COUNT>,
+    mark: usize,
+    keys: usize,
+    note: String,
+}
+
+impl<W: Weights> Screen<'_, W> {
+    fn refresh(&mut self) -> Result<(), inkling_core::Error> {
+        self.found = self.session.suggest(&self.options)?;
+        self.mark = 0;
+        Ok(())
+    }
+
+    /// Types `bytes`, all or none: a refused byte takes back those before it.
+    fn type_bytes(&mut self, bytes: &[u8]) -> Result<(), inkling_core::Error> {
+        for (done, &b) in bytes.iter().enumerate() {
+            if let Err(e) = self.session.push(b) {
+                for _ in 0..done {
+                    self.session.backspace()?;
+                    self.text.pop();
+                }
+                return Err(e);
+            }
+            self.text.push(b);
+        }
+        Ok(())
+    }
+
+    fn delete(&mut self) -> Result<(), inkling_core::Error> {
+        for _ in 0..last_char_len(&self.text) {
+            if !self.session.backspace()? {
+                self.note = "nothing more to delete: the session keeps only its recent text".into();
+                return Ok(());
+            }
+            self.text.pop();
+        }
+        Ok(())
+    }
+
+    /// Handles one key; `false` to quit.
+    fn key(&mut self, key: &KeyEvent) -> Result<bool, inkling_core::Error> {
+        self.note.clear();
+        let result = match action(key) {
+            Action::Quit => return Ok(false),
+            Action::Ignore => return Ok(true),
+            Action::Mark(step) => {
+                let n = self.found.list.len().max(1) as isize;
+                self.mark = (self.mark as isize + step).rem_euclid(n) as usize;
+                self.keys += 1;
+                return Ok(true);
+            }
+            Action::Type(bytes) => self.type_bytes(&bytes),
+            Action::Take => {
+                // A suggestion is the typed part of the word followed by its completion.
+                let typed = self.session.word().len();
+                let rest: Vec<u8> = (self.found.list.get(self.mark))
+                    .and_then(|s| s.text.get(typed..))
+                    .map(<[u8]>::to_vec)
+                    .unwrap_or_default();
+                self.type_bytes(&rest)
+            }
+            Action::Delete => self.delete(),
+        };
+        self.keys += 1;
+        if let Err(e) = result {
+            self.note = format!("not typed: {e}");
+        }
+        self.refresh()?;
+        Ok(true)
+    }
+
+    fn draw(&self, out: &mut impl Write, title: &str) -> io::Result<()> {
+        queue!(out, cursor::MoveTo(0, 0), terminal::Clear(ClearType::All))?;
+        let mut lines = vec![
+            title.to_string(),
+            "Tab: take the marked suggestion  Up/Down: move the mark  Enter: new line  \
+             Backspace: delete  Esc or Ctrl-C: quit"
+                .to_string(),
+            String::new(),
+        ];
+        let text: Vec<&[u8]> = self.text.split(|&b| b == b'\n').collect();
+        let shown = &text[text.len().saturating_sub(TEXT_LINES)..];
+        for (i, line) in shown.iter().enumerate() {
+            let caret = if i + 1 == shown.len() { "_" } else { "" };
+            lines.push(format!("| {}{caret}", String::from_utf8_lossy(line)));
+        }
+        lines.push(String::new());
+        for (i, s) in self.found.list.iter().enumerate() {
+            let mark = if i == self.mark { ">" } else { " " };
+            let tag = if s.finished { "" } else { "  (unfinished)" };
+            lines.push(format!(
+                "{mark} {}. {}{tag}",
+                i + 1,
+                String::from_utf8_lossy(&s.text)
+            ));
+        }
+        lines.push(String::new());
+        lines.push(format!(
+            "key {}, {} steps{}  {}",
+            self.keys,
+            self.found.steps,
+            if self.found.cut_short {
+                " (cut short)"
+            } else {
+                ""
+            },
+            self.note
+        ));
+        for line in lines {
+            queue!(out, Print(line), Print("\r\n"))?;
+        }
+        out.flush()
+    }
+}
+
+/// Runs `inkling try`.
+pub fn run(args: &TryArgs) -> Result<(), HostError> {
+    if args.count > MAX_COUNT {
+        return Err(HostError::Usage(format!(
+            "--count {} is more than the {MAX_COUNT} a session holds",
+            args.count
+        )));
+    }
+    let file = ModelFile::open(&args.model)?;
+    let title = format!(
+        "inkling try: {} ({} engine), {} suggestions",
+        args.model.display(),
+        file.engine_name(),
+        args.count
+    );
+    let model_error = |source| HostError::Image {
+        path: args.model.clone(),
+        source,
+    };
+    let terminal_error = HostError::io("the terminal");
+    file.with_weights(|w| {
+        let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
+        let session = memory.session::<_, MAX_COUNT>(w).map_err(model_error)?;
+        let mut screen = Screen {
+            session,
+            options: SearchOptions {
+                max_steps: args.max_steps,
+                ..SearchOptions::new(args.count)
+            },
+            text: Vec::new(),
+            found: Suggestions::default(),
+            mark: 0,
+            keys: 0,
+            note: String::new(),
+        };
+        screen.refresh().map_err(model_error)?;
+        let mut run = || -> io::Result<Result<(), inkling_core::Error>> {
+            let _raw = RawTerminal::enter()?;
+            let mut out = io::stdout();
+            loop {
+                screen.draw(&mut out, &title)?;
+                let key = match event::read()? {
+                    Event::Key(k) if k.kind == KeyEventKind::Press => k,
+                    _ => continue,
+                };
+                match screen.key(&key) {
+                    Ok(true) => {}
+                    Ok(false) => return Ok(Ok(())),
+                    Err(e) => return Ok(Err(e)),
+                }
+            }
+        };
+        run().map_err(terminal_error)?.map_err(model_error)
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::last_char_len;
+
+    #[test]
+    fn backspace_deletes_one_utf8_character() {
+        // UTF-8 (RFC 3629): "é" is C3 A9, "東" E6 9D B1, "😀" F0 9F 98 80.
+        assert_eq!(last_char_len(b"ab"), 1);
+        assert_eq!(last_char_len("caf\u{e9}".as_bytes()), 2);
+        assert_eq!(last_char_len("\u{6771}".as_bytes()), 3);
+        assert_eq!(last_char_len("a\u{1F600}".as_bytes()), 4);
+        // A byte that is no character on its own still goes one at a time.
+        assert_eq!(last_char_len(b"a\xff"), 1);
+        assert_eq!(last_char_len(b"\xe6\x9d"), 1);
+    }
+}

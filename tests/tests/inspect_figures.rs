@@ -1,0 +1,80 @@
+//! `inkling inspect` reports the flash and RAM the engine and a session really take: each
+//! figure is checked against what the core itself refuses to run with one element less.
+
+use inkling_core::session::Session;
+use inkling_core::{Engine, Error, Model, Scratch};
+use inkling_host::train::config::Preset;
+use inkling_tests::bench_models::preset_model;
+use inkling_tests::inkling_cli::run_json;
+
+/// The `needed` of a `BufferTooSmall` error, or a panic naming what came instead.
+fn needed(result: Result<(), Error>, buffer: &str) -> usize {
+    match result {
+        Err(Error::BufferTooSmall { needed, .. }) => needed,
+        other => panic!("{buffer}: expected BufferTooSmall, got {other:?}"),
+    }
+}
+
+#[test]
+fn inspect_figures_match_the_engine() {
+    let dir = tempfile::tempdir().unwrap();
+    for preset in [Preset::Tiny, Preset::Small] {
+        let (_, image) = preset_model(preset, 3, dir.path());
+        let path = dir.path().join(format!("{}.inkl", preset.name()));
+        std::fs::write(&path, &image).unwrap();
+        let report = run_json([
+            "inspect".as_ref(),
+            path.as_os_str(),
+            "--beams".as_ref(),
+            "3".as_ref(),
+            "--json".as_ref(),
+        ]);
+        let model = Model::from_bytes(&image).unwrap();
+        let d = *model.dims();
+
+        // Flash: the image is read in place, so it is the file.
+        assert_eq!(
+            report["flash_bytes"].as_u64().unwrap() as usize,
+            image.len()
+        );
+
+        // State: the engine refuses a state one element short of the reported size.
+        let state_floats = report["ram"]["state_bytes"].as_u64().unwrap() as usize / 4;
+        let mut work = vec![0.0f32; d.work_len()];
+        let mut act = vec![0i16; d.act_len()];
+        let mut short = vec![0.0f32; state_floats - 1];
+        let scratch = Scratch::new(&d, &mut work, &mut act).unwrap();
+        assert_eq!(
+            needed(
+                Engine::from_parts(model, &mut short, scratch).map(|_| ()),
+                "state"
+            ),
+            state_floats
+        );
+
+        // Scratch: work (f32) and activations (i16), each refused one element short.
+        let scratch_bytes = report["ram"]["scratch_bytes"].as_u64().unwrap() as usize;
+        let mut w_short = vec![0.0f32; d.work_len() - 1];
+        let work_needed = needed(Scratch::new(&d, &mut w_short, &mut act).map(|_| ()), "work");
+        let mut a_short = vec![0i16; d.act_len() - 1];
+        let act_needed = needed(Scratch::new(&d, &mut work, &mut a_short).map(|_| ()), "act");
+        assert_eq!(scratch_bytes, 4 * work_needed + 2 * act_needed);
+
+        // A session with 3 suggestions: its state buffer is refused one element short, and
+        // the reported session RAM covers that buffer, the scratch and the session itself.
+        let mut floats = vec![0.0f32; d.session_floats(3) - 1];
+        let scratch = Scratch::new(&d, &mut work, &mut act).unwrap();
+        let floats_needed = needed(
+            Session::<_, 3>::new(model, &mut floats, scratch).map(|_| ()),
+            "session",
+        );
+        let session = report["ram"]["session"].as_u64().unwrap() as usize;
+        let fixed = std::mem::size_of::<Session<'_, Model<'_>, 3>>();
+        assert!(
+            session >= 4 * floats_needed + scratch_bytes + fixed,
+            "{}: session {session} < {} + {scratch_bytes} + {fixed}",
+            preset.name(),
+            4 * floats_needed
+        );
+    }
+}

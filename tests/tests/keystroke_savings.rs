@@ -1,0 +1,161 @@
+//! Keystroke savings (`inkling eval --savings`): a run counted by hand, and the command's
+//! figures against the library's simulation on the repository's scenario text.
+//!
+//! Definition (Trnka & McCoy 2008, "Evaluating Word Prediction: Framing Keystroke Savings",
+//! ACL-08): KS = (keys letter by letter − keys with prediction) / keys letter by letter.
+
+use std::path::{Path, PathBuf};
+
+use inkling_host::keystroke_savings::simulation::whole_words;
+use inkling_host::keystroke_savings::{simulate, FrequencyBaseline, KeyCount};
+use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
+use inkling_tests::inkling_cli::{convert, inkling_binary, run_json};
+use inkling_tests::numpy_reference::make_checkpoint;
+use inkling_tests::run_seed::base_seed;
+
+fn repo_file(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+#[test]
+fn baseline_on_a_tiny_corpus_matches_the_keys_counted_by_hand() {
+    // Corpus counts: the 3, sat 2, cat 1, on 1, mat 1, dog 1. With 2 suggestions, a word
+    // start offers "the" and "sat" (the most frequent); a prefix offers its most frequent words.
+    let corpus = b"the cat sat on the mat\nthe dog sat\n";
+    let mut baseline = FrequencyBaseline::from_corpus(corpus);
+    // The text, 21 bytes, so 21 keys letter by letter:
+    //   "the"  offered at its start            -> taken: 1 key   (a space follows)
+    //   "dog"  not at the start; "d" -> "dog"  -> 'd' + take: 2 keys (a space follows)
+    //   "sat"  offered at its start            -> 1 key          (a space follows)
+    //   "on"   "o" -> "on"                     -> 2 keys         (a space follows)
+    //   "a"    never offered (not in corpus)   -> 1 key
+    //   "mat"  "m" -> "mat"                    -> 2 keys         ("." follows)
+    //   5 spaces and "." typed                 -> 6 keys
+    // Keys with prediction: 1+2+1+2+1+2 + 6 = 15; KS = (21 - 15) / 21 = 6/21.
+    let text = b"the dog sat on a mat.";
+    assert_eq!(text.len(), 21);
+    let keys = simulate(text, 2, &mut baseline).unwrap();
+    assert_eq!(
+        keys,
+        KeyCount {
+            bytes: 21,
+            keys: 15,
+            words: 6,
+            taken: 5,
+            taken_before_space: 4,
+        }
+    );
+    assert_eq!(keys.savings(true, false), 6.0 / 21.0);
+    // Automatic space: 4 spaces saved, 1 inserted space deleted after "mat" (before "."):
+    // 15 - 4 + 1 = 12 keys, KS = 9/21.
+    assert_eq!(keys.with_prediction(true, true), 12);
+    assert_eq!(keys.savings(true, true), 9.0 / 21.0);
+    // Selection free: the 5 selection keys are not counted: 10 keys, KS = 11/21.
+    assert_eq!(keys.with_prediction(false, false), 10);
+    assert_eq!(keys.savings(false, false), 11.0 / 21.0);
+}
+
+#[test]
+fn one_suggestion_gives_only_the_most_frequent_word() {
+    // Same corpus, 1 suggestion: a word start offers "the" only, "s" offers "sat", "d" "dog".
+    //   "the" 1 key, "sat" 's' + take = 2, "dog" 'd' + take = 2, and 2 spaces: 7 keys where
+    //   letter by letter "the sat dog" takes 11; KS = 4/11.
+    let mut baseline = FrequencyBaseline::from_corpus(b"the cat sat on the mat\nthe dog sat\n");
+    let keys = simulate(b"the sat dog", 1, &mut baseline).unwrap();
+    assert_eq!((keys.bytes, keys.keys, keys.taken), (11, 7, 3));
+    assert_eq!(keys.savings(true, false), 4.0 / 11.0);
+}
+
+/// A small random model: its figures mean nothing, but the command must count its keys and
+/// the baseline's as the library does.
+fn random_image(dir: &Path) -> PathBuf {
+    let spec = CheckpointSpec {
+        d: 16,
+        i: 24,
+        n: 4,
+        k: 2,
+        r: 1,
+        blocks: 1,
+        tied: false,
+        dtype: Dtype::F32,
+        seed: base_seed(),
+    };
+    let checkpoint = dir.join("random.safetensors");
+    let image = dir.join("random.inkl");
+    make_checkpoint(&spec, &checkpoint);
+    convert(&checkpoint, &image, &[]);
+    image
+}
+
+#[test]
+fn eval_savings_reports_the_library_figures_for_both() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    let image = random_image(dir.path());
+    let text_path = repo_file("data/scenario/heldout.txt");
+    let corpus_path = repo_file("data/scenario/train.txt");
+    let report = run_json([
+        "eval".as_ref(),
+        image.as_os_str(),
+        "--text".as_ref(),
+        text_path.as_os_str(),
+        "--savings".as_ref(),
+        "--baseline-corpus".as_ref(),
+        corpus_path.as_os_str(),
+        "--max-bytes".as_ref(),
+        "400".as_ref(),
+        "--count".as_ref(),
+        "3".as_ref(),
+        "--json".as_ref(),
+    ]);
+    let ks = &report["keystroke_savings"];
+    assert_eq!(ks["count"], 3);
+    assert_eq!(ks["selection_counts"], true);
+    assert_eq!(ks["auto_space"], false);
+
+    let text = std::fs::read(&text_path).unwrap();
+    let slice = whole_words(&text, 400);
+    let corpus = std::fs::read(&corpus_path).unwrap();
+    let expected = simulate(slice, 3, &mut FrequencyBaseline::from_corpus(&corpus)).unwrap();
+    assert_eq!(ks["bytes"], slice.len());
+    assert_eq!(ks["keys_letter_by_letter"], slice.len());
+    assert_eq!(ks["baseline_keys"], expected.keys);
+    assert_eq!(ks["baseline"].as_f64(), Some(expected.savings(true, false)));
+    let variants = ks["variants"].as_array().expect("variants list");
+    assert_eq!(variants.len(), 2);
+    for v in variants {
+        let (sel, auto) = (v["selection_counts"] == true, v["auto_space"] == true);
+        assert_eq!(v["baseline"].as_f64(), Some(expected.savings(sel, auto)));
+    }
+
+    // Taking a suggestion costs at most the keys it replaces, so the headline figure of any
+    // model lies in [0, 1); its keys follow from the savings.
+    let model = ks["model"].as_f64().expect("model savings");
+    assert!((0.0..1.0).contains(&model), "model savings {model}");
+    let model_keys = ks["model_keys"].as_u64().unwrap() as f64;
+    assert_eq!(
+        model,
+        (slice.len() as f64 - model_keys) / slice.len() as f64
+    );
+}
+
+#[test]
+fn eval_savings_refuses_a_missing_or_cheating_baseline() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    let text = dir.path().join("text.txt");
+    std::fs::write(&text, "a few words of text\n").unwrap();
+    let image = random_image(dir.path());
+    for extra in [vec![], vec!["--baseline-corpus".as_ref(), text.as_os_str()]] {
+        let output = std::process::Command::new(inkling_binary())
+            .arg("eval")
+            .arg(&image)
+            .arg("--text")
+            .arg(&text)
+            .arg("--savings")
+            .args(extra)
+            .output()
+            .expect("inkling runs");
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert!(!output.status.success());
+        assert!(stderr.contains("--baseline-corpus"), "{stderr}");
+    }
+}
