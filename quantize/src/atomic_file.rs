@@ -6,13 +6,18 @@ use std::path::Path;
 use crate::error::QuantizeError;
 
 /// Writes `bytes` to `path` through a temporary file in the same folder, flushed to disk and
-/// then renamed over `path` (rename within one file system is atomic on POSIX). If the
-/// process dies before the rename, `path` is untouched and only the temporary file remains.
+/// then renamed over `path` (rename within one file system is atomic on POSIX), and the
+/// folder flushed so the rename itself is durable. If the process dies before the rename,
+/// `path` is untouched and only the temporary file remains.
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), QuantizeError> {
-    let io = |source| QuantizeError::Io {
+    write_file_atomically(path, bytes).map_err(|source| QuantizeError::Io {
         path: path.to_path_buf(),
         source,
-    };
+    })
+}
+
+/// [`write_atomically`] with the bare I/O error, for callers with errors of their own.
+pub fn write_file_atomically(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let dir = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p,
         _ => Path::new("."),
@@ -26,12 +31,15 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), QuantizeError> 
         let mut f = std::fs::File::create(&tmp)?;
         f.write_all(bytes)?;
         f.sync_all()?;
-        std::fs::rename(&tmp, path)
+        drop(f);
+        std::fs::rename(&tmp, path)?;
+        // POSIX: fsync of the folder makes the new directory entry durable.
+        std::fs::File::open(dir)?.sync_all()
     })();
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
     }
-    result.map_err(io)
+    result
 }
 
 #[cfg(test)]

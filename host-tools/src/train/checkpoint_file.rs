@@ -3,7 +3,6 @@
 //! rename over the target).
 
 use std::collections::HashMap;
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use safetensors::{Dtype, SafeTensors};
@@ -30,32 +29,12 @@ pub fn optimizer_path(checkpoint: &Path) -> PathBuf {
 
 /// Writes `bytes` to `path` so that `path` is always either the old or the new file.
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), TrainError> {
-    let fail = |source| TrainError::WriteFile {
-        path: path.to_owned(),
-        source,
-    };
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_owned(),
-        _ => PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        drop(f);
-        std::fs::rename(&tmp, path)?;
-        // Persist the rename itself (POSIX: a directory fsync makes the entry durable).
-        std::fs::File::open(&dir)?.sync_all()
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result.map_err(fail)
+    inkling_quantize::atomic_file::write_file_atomically(path, bytes).map_err(|source| {
+        TrainError::WriteFile {
+            path: path.to_owned(),
+            source,
+        }
+    })
 }
 
 fn f32_bytes(v: &[f32]) -> Vec<u8> {
