@@ -1,7 +1,10 @@
 #!/usr/bin/env bash
 # Builds the firmware example, runs it on an emulated Cortex-M4F (QEMU mps2-an386) with
-# scripted typing piped in, and prints its figures: instructions per step, per keystroke and
-# per byte of prefill, flash and RAM from the linker's sections, and the stack high-water mark.
+# scripted typing piped in, and prints its figures: instructions per step (and its split into
+# matrix products, quantisation, scan exponentials), per keystroke and per byte of prefill,
+# flash and RAM from the linker's sections, and the stack high-water mark. Then it runs
+# kernel_count: the SMLAD kernel checked against the portable one, and its instructions per
+# multiply-accumulate.
 #
 # usage: tests/firmware/run.sh [--profile release|release-o3] [--input FILE] [--out DIR]
 #                              [--skip-unit]
@@ -85,6 +88,23 @@ if [ "$status" -ne 0 ]; then
 fi
 
 sed -n 's/^figure //p' "$out/log.txt" >"$out/figures.txt"
+
+echo "== counting the matrix-vector kernel alone in QEMU (kernel_count)" >&2
+status=0
+timeout 120 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
+  -display none -serial none -monitor none \
+  -semihosting-config enable=on,target=native -icount shift=0 \
+  -kernel "$CARGO_TARGET_DIR/$target/$profile/kernel_count" </dev/null >/dev/null 2>"$out/kernel_log.txt" || status=$?
+if [ "$status" -ne 0 ]; then
+  echo "run.sh: kernel_count exited with status $status (4: the SMLAD kernel differs from the portable one)" >&2
+  cat "$out/kernel_log.txt" >&2
+  exit 1
+fi
+sed -n 's/^figure \(kernel_\)/\1/p' "$out/kernel_log.txt" >>"$out/figures.txt"
+# Instructions per weight of a whole step (x1000), the figure the budget's cost model uses.
+awk '$1 == "step_instructions" { s = $2 } $1 == "step_macs" { m = $2 }
+     END { if (m > 0) printf "step_instructions_per_weight_milli %d\n", 1000 * s / m }' \
+  "$out/figures.txt" >>"$out/figures.txt"
 # Sections: text (code and the model image, in flash), data (initial values in flash, live
 # in RAM), bss (zeroed RAM).
 size_tool=$(ls "$(rustc --print sysroot)"/lib/rustlib/*/bin/llvm-size | head -n 1)

@@ -94,3 +94,24 @@ pub fn convert(checkpoint: &Path, image: &Path, extra: &[&OsStr]) -> Value {
     );
     report
 }
+
+/// A small random model (1 block, D 16, I 24, N 4, K 2, untied head), converted to an image
+/// in `dir`: its predictions mean nothing, but every command runs on it in milliseconds.
+pub fn random_image(dir: &Path) -> PathBuf {
+    let spec = crate::checkpoint_spec::CheckpointSpec {
+        d: 16,
+        i: 24,
+        n: 4,
+        k: 2,
+        r: 1,
+        blocks: 1,
+        tied: false,
+        dtype: crate::checkpoint_spec::Dtype::F32,
+        seed: crate::run_seed::base_seed(),
+    };
+    let checkpoint = dir.join("random.safetensors");
+    let image = dir.join("random.inkl");
+    crate::numpy_reference::make_checkpoint(&spec, &checkpoint);
+    convert(&checkpoint, &image, &[]);
+    image
+}

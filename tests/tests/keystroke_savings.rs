@@ -8,10 +8,7 @@ use std::path::{Path, PathBuf};
 
 use inkling_host::keystroke_savings::simulation::whole_words;
 use inkling_host::keystroke_savings::{simulate, FrequencyBaseline, KeyCount};
-use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
-use inkling_tests::inkling_cli::{convert, inkling_binary, run_json};
-use inkling_tests::numpy_reference::make_checkpoint;
-use inkling_tests::run_seed::base_seed;
+use inkling_tests::inkling_cli::{inkling_binary, random_image, run_json};
 
 fn repo_file(rel: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
@@ -64,27 +61,6 @@ fn one_suggestion_gives_only_the_most_frequent_word() {
     let keys = simulate(b"the sat dog", 1, &mut baseline).unwrap();
     assert_eq!((keys.bytes, keys.keys, keys.taken), (11, 7, 3));
     assert_eq!(keys.savings(true, false), 4.0 / 11.0);
-}
-
-/// A small random model: its figures mean nothing, but the command must count its keys and
-/// the baseline's as the library does.
-fn random_image(dir: &Path) -> PathBuf {
-    let spec = CheckpointSpec {
-        d: 16,
-        i: 24,
-        n: 4,
-        k: 2,
-        r: 1,
-        blocks: 1,
-        tied: false,
-        dtype: Dtype::F32,
-        seed: base_seed(),
-    };
-    let checkpoint = dir.join("random.safetensors");
-    let image = dir.join("random.inkl");
-    make_checkpoint(&spec, &checkpoint);
-    convert(&checkpoint, &image, &[]);
-    image
 }
 
 #[test]

@@ -2,17 +2,14 @@
 //! it shows are checked against `inkling suggest` on the same text.
 
 use std::io::{Read, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
 use portable_pty::{native_pty_system, Child, CommandBuilder, MasterPty, PtySize};
 use serde_json::Value;
 
-use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
-use inkling_tests::inkling_cli::{convert, inkling_binary, run_json};
-use inkling_tests::numpy_reference::make_checkpoint;
-use inkling_tests::run_seed::base_seed;
+use inkling_tests::inkling_cli::{inkling_binary, random_image, run_json};
 
 /// How long the screen may take to show a key's effect (a search on a tiny model takes
 /// milliseconds; the margin is for a loaded machine).
@@ -20,25 +17,6 @@ const PATIENCE: Duration = Duration::from_secs(20);
 
 /// Leaving the alternate screen (xterm private mode 1049 reset): the terminal is given back.
 const LEAVE: &[u8] = b"\x1b[?1049l";
-
-fn random_image(dir: &Path) -> PathBuf {
-    let spec = CheckpointSpec {
-        d: 16,
-        i: 24,
-        n: 4,
-        k: 2,
-        r: 1,
-        blocks: 1,
-        tied: false,
-        dtype: Dtype::F32,
-        seed: base_seed(),
-    };
-    let checkpoint = dir.join("random.safetensors");
-    let image = dir.join("random.inkl");
-    make_checkpoint(&spec, &checkpoint);
-    convert(&checkpoint, &image, &[]);
-    image
-}
 
 /// Terminal output without its control sequences (ECMA-48: CSI `ESC [ ... final` with the
 /// final byte in 0x40..=0x7E; OSC `ESC ] ... BEL`; other `ESC x` pairs), as text.

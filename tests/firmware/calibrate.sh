@@ -1,0 +1,60 @@
+#!/usr/bin/env bash
+# Measures the firmware on models of several shapes, for the cost model of `inkling budget`:
+# for each shape it draws a random checkpoint (tests/reference/make_checkpoint.py), converts it
+# (`inkling convert`), builds the firmware with it and runs the scripted typing in QEMU
+# (run.sh), and writes one line of dimensions and figures to tests/firmware/calibration.txt.
+#
+# usage: tests/firmware/calibrate.sh [--inkling PATH]
+#   --inkling  the inkling binary (default: target/release/inkling under CARGO_TARGET_DIR or
+#              the repository)
+# The instruction counts are exact under `-icount shift=0`, so a re-run gives the same file.
+set -euo pipefail
+
+here=$(cd "$(dirname "$0")" && pwd)
+root=$(cd "$here/../.." && pwd)
+inkling="${CARGO_TARGET_DIR:-$root/target}/release/inkling"
+while [ $# -gt 0 ]; do
+  case "$1" in
+    --inkling) inkling=$2; shift 2 ;;
+    *) echo "calibrate.sh: unknown argument $1" >&2; exit 2 ;;
+  esac
+done
+[ -x "$inkling" ] || { echo "calibrate.sh: no inkling binary at $inkling (cargo build --release -p inkling-host)" >&2; exit 2; }
+
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+out="$here/calibration.txt"
+{
+  echo "# Firmware figures per model shape (QEMU mps2-an386, -icount shift=0, profile release)."
+  echo "# Written by tests/firmware/calibrate.sh; one shape a line, NAME=VALUE fields."
+} >"$work/calibration.txt"
+
+# Shapes: d_model d_inner d_state blocks. They fit the 128 KiB of RAM in memory.x with 3 beams.
+shapes=(
+  "32 64 8 1"
+  "64 128 16 1"
+  "48 96 4 2"
+  "96 192 8 2"
+  "128 128 8 2"
+)
+for shape in "${shapes[@]}"; do
+  read -r d i n blocks <<<"$shape"
+  name="d${d}_i${i}_n${n}_l${blocks}"
+  echo "== $name" >&2
+  python3 "$root/tests/reference/make_checkpoint.py" --d "$d" --i "$i" --n "$n" \
+    --blocks "$blocks" --seed 1 -o "$work/$name.safetensors" >/dev/null
+  "$inkling" convert "$work/$name.safetensors" --out "$work/$name.inkl" >/dev/null
+  INKLING_IMAGE="$work/$name.inkl" "$here/run.sh" --skip-unit --out "$work/$name" >/dev/null
+  fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks"
+  while read -r key value; do
+    case "$key" in
+      image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
+      step_scan_exp_instructions|keystroke_instructions_mean|keystroke_search_steps_mean|\
+      prefill_instructions_per_byte|stack_used_bytes|flash_text_bytes|kernel_*_instructions_per_mac_milli)
+        fields="$fields $key=$value" ;;
+    esac
+  done <"$work/$name/figures.txt"
+  echo "$fields" >>"$work/calibration.txt"
+done
+mv "$work/calibration.txt" "$out"
+echo "wrote $out" >&2

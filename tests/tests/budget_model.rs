@@ -1,0 +1,72 @@
+//! `inkling budget`'s cost model against the firmware's own measurements: instruction counts
+//! of whole engine steps and keystrokes counted in QEMU (`tests/firmware/calibrate.sh`, exact
+//! under `-icount shift=0`), and image sizes written by `inkling convert` for the same shapes.
+
+use inkling_host::commands::budget::cost_model::{
+    calibration, image_bytes, Calibration, CostModel,
+};
+use inkling_host::commands::budget::{fitting, parse_size};
+
+fn measured() -> Calibration {
+    Calibration::parse(calibration::BUILT_IN).expect("tests/firmware/calibration.txt reads")
+}
+
+#[test]
+fn step_predictions_are_within_15_percent_of_the_measured_counts() {
+    let cal = measured();
+    assert!(cal.samples.len() >= 3, "at least 3 measured shapes");
+    let model = CostModel::fit(&cal).expect("a fit");
+    for s in &cal.samples {
+        let predicted = model.step_instructions(&s.dims);
+        let measured = s.step_instructions as f64;
+        // The 15% bound is the task's acceptance level (common practice, no source).
+        assert!(
+            (predicted - measured).abs() <= 0.15 * measured,
+            "{:?}: predicted {predicted:.0}, measured {measured}",
+            s.dims
+        );
+    }
+}
+
+#[test]
+fn keystroke_predictions_are_within_15_percent_at_the_measured_search_length() {
+    let cal = measured();
+    let model = CostModel::fit(&cal).expect("a fit");
+    for s in &cal.samples {
+        // With the sample's own search length, the overhead model alone is under test.
+        let over = model.search_overhead[0] + model.search_overhead[1] * s.dims.state_len() as f64;
+        let predicted =
+            (s.search_steps_mean as f64 + 1.0) * (model.step_instructions(&s.dims) + over);
+        let measured = s.keystroke_instructions_mean as f64;
+        assert!(
+            (predicted - measured).abs() <= 0.15 * measured,
+            "{:?}: predicted {predicted:.0}, measured {measured}",
+            s.dims
+        );
+    }
+}
+
+#[test]
+fn image_size_is_what_convert_wrote() {
+    // Exact: the firmware reported the size of the image `inkling convert` made.
+    for s in &measured().samples {
+        assert_eq!(image_bytes(&s.dims, false), s.image_bytes, "{:?}", s.dims);
+    }
+}
+
+#[test]
+fn fitting_shapes_respect_the_budget() {
+    let model = CostModel::fit(&measured()).expect("a fit");
+    let (flash, ram) = (parse_size("512K").unwrap(), parse_size("128K").unwrap());
+    assert_eq!(flash, 512 * 1024);
+    let found = fitting(&model, flash, ram, 3);
+    assert!(!found.is_empty(), "some shape fits 512K/128K");
+    for c in &found {
+        assert!(c.flash_bytes <= flash && c.ram_bytes <= ram, "{c:?}");
+    }
+    // Sorted largest model first.
+    assert!(found
+        .windows(2)
+        .all(|w| w[0].dims.macs_per_step() >= w[1].dims.macs_per_step()));
+    assert!(parse_size("12Q").is_err());
+}
