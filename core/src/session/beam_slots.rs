@@ -1,7 +1,7 @@
 //! Caller-owned storage for engine states, each with the logits that follow it.
 
 use crate::engine::buffers::Scratch;
-use crate::engine::recurrence::step;
+use crate::engine::recurrence::prefill;
 use crate::engine::weights::Weights;
 use crate::error::Error;
 use crate::image::format::VOCAB;
@@ -102,8 +102,23 @@ impl<'b> Slots<'b> {
         scratch: &mut Scratch<'_>,
         byte: u8,
     ) -> Result<(), Error> {
+        self.feed(slot, weights, scratch, &[byte])
+    }
+
+    /// Runs known `bytes` through the model on the state of `slot` (in prefill passes as
+    /// large as the scratch allows) and keeps the logits after the last; nothing for none.
+    pub(crate) fn feed<W: Weights + ?Sized>(
+        &mut self,
+        slot: usize,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        bytes: &[u8],
+    ) -> Result<(), Error> {
+        if bytes.is_empty() {
+            return Ok(());
+        }
         let (state, logits) = self.parts_mut(slot);
-        let next = step(weights, state, scratch, byte)?;
+        let next = prefill(weights, state, scratch, bytes)?;
         copy(next, logits);
         Ok(())
     }

@@ -21,7 +21,9 @@ use crate::error::Error;
 ///   ends the current word and the state after it is kept as a snapshot. A word holds at
 ///   most [`MAX_WORD_LEN`] bytes; a further word byte is refused (see there).
 /// - **Backspace inside a word** restores the snapshot and re-feeds the rest of the word:
-///   at most `MAX_WORD_LEN - 1` steps.
+///   at most `MAX_WORD_LEN - 1` steps, as one prefill (so in passes of
+///   [`Scratch::chunk_capacity`] bytes: give the session a chunk-sized scratch and each
+///   weight row is read once per pass, not once per byte).
 /// - **Backspace across a boundary** (the word is empty, so the byte removed is a boundary)
 ///   recovers from the history of the last `H` bytes: the state is reset, primed and the
 ///   history re-fed, at most `H + 1` steps. Text older than the history is forgotten: after
@@ -218,9 +220,8 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
             // Inside the word: back to the snapshot, then the rest of the word again.
             let (state, logits) = self.boundary.parts(0);
             self.live.load(0, state, logits);
-            for &b in self.word.as_bytes() {
-                self.live.step(0, &self.weights, &mut self.scratch, b)?;
-            }
+            self.live
+                .feed(0, &self.weights, &mut self.scratch, self.word.as_bytes())?;
         } else {
             self.recover()?;
         }
