@@ -149,7 +149,7 @@ mod arm {
         if !row_sums(m.weights(), cols, act, quads, first / 4, fast) {
             return false;
         }
-        if n % 4 != 0 {
+        if !n.is_multiple_of(4) {
             let tail_act = act.get(4 * quads..n).unwrap_or(&[]);
             for (r, o) in fast.iter_mut().enumerate() {
                 let tail = dot_i8_i16(m.row(r).get(4 * quads..n).unwrap_or(&[]), tail_act);

@@ -97,27 +97,27 @@ pub const FLAG_TIED_HEAD: u32 = 1;
 pub enum Role {
     /// `byte_embed` [256, D], int8.
     ByteEmbed,
-    /// `final_norm` [D], float.
+    /// `final_norm` `[D]`, float.
     FinalNorm,
     /// `head` [256, D], int8 (only when untied).
     Head,
-    /// `blocks.l.norm` [D], float.
+    /// `blocks.l.norm` `[D]`, float.
     Norm,
     /// `blocks.l.expand` [2I, D], int8.
     Expand,
     /// `blocks.l.conv` [I, K], float.
     Conv,
-    /// `blocks.l.conv_bias` [I], float.
+    /// `blocks.l.conv_bias` `[I]`, float.
     ConvBias,
     /// `blocks.l.select` [R + 2N, I], int8.
     Select,
     /// `blocks.l.step` [I, R], float.
     Step,
-    /// `blocks.l.step_bias` [I], float.
+    /// `blocks.l.step_bias` `[I]`, float.
     StepBias,
     /// `blocks.l.decay` [I, N], stored as `A = -exp(decay)`, f32.
     Decay,
-    /// `blocks.l.skip` [I], float.
+    /// `blocks.l.skip` `[I]`, float.
     Skip,
     /// `blocks.l.contract` [D, I], int8.
     Contract,

@@ -365,7 +365,7 @@ impl<'a> Model<'a> {
         }
     }
 
-    /// `final_norm` [D].
+    /// `final_norm` `[D]`.
     pub fn final_norm(&self) -> Floats<'a> {
         self.floats(1 + format::TENSORS_PER_BLOCK * self.dims.blocks)
     }
