@@ -2,12 +2,9 @@
 //!
 //! Integer sums may be reordered (into SIMD lanes on the workstation, four rows at a time
 //! with SMLAD on a Cortex-M4); the float rescale is done in one fixed order on every target,
-//! so every target gets the same bits. The integer kernels are in [`kernels`].
+//! so every target gets the same bits. The integer kernels are in [`kernels`](super::kernels).
 
-#[path = "kernels/mod.rs"]
-pub mod kernels;
-
-pub use kernels::portable::dot_i8_i16;
+pub use super::kernels::portable::dot_i8_i16;
 
 use crate::image::views::QuantMatrix;
 
@@ -110,7 +107,7 @@ fn row_output(m: &QuantMatrix<'_>, r: usize, act: &[i16], act_scale: f32) -> f32
 /// portable one. The same integer sums and the same float rescale as [`row_output`].
 #[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
 mod arm {
-    use super::kernels::cortex_m4::row_sums;
+    use crate::engine::kernels::cortex_m4::row_sums;
     use super::{dot_i8_i16, row_output};
     use crate::image::views::{Floats, QuantMatrix};
 

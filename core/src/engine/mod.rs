@@ -9,6 +9,7 @@ pub mod activation;
 pub mod buffers;
 #[allow(clippy::module_inception)]
 pub mod engine;
+pub mod kernels;
 pub mod matvec;
 pub mod nonlinear;
 pub mod recurrence;

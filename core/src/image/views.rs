@@ -161,6 +161,11 @@ impl<'a> QuantMatrix<'a> {
             .unwrap_or(&[])
     }
 
+    /// All scales, row-major (`ceil(cols / group)` per row, one per row for group 0).
+    pub fn scales(&self) -> Floats<'a> {
+        self.scales
+    }
+
     /// All weights as stored bytes, row-major.
     pub fn weights(&self) -> &'a [u8] {
         self.weights

@@ -7,10 +7,7 @@
 //! counts under QEMU; time assumes one instruction per cycle, an optimistic bound (flash wait
 //! states and multi-cycle instructions make a real part slower).
 
-#[path = "../cost_model/mod.rs"]
-pub mod cost_model;
-
-use cost_model::{calibration, image_bytes, Calibration, CostModel};
+use crate::cost_model::{calibration, image_bytes, Calibration, CostModel};
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
 use inkling_core::Dims;
 
