@@ -8,6 +8,6 @@ python3 data/scenario/generate.py         # the invented scenario text (already 
 cargo build --release -p inkling-host
 inkling=target/release/inkling
 "$inkling" train data/open/kjv-train.txt data/scenario/train.txt \
-  --config small --seconds 1380 --holdout 0.01 --seed 7 --out models/demo.safetensors
+  --config small --steps 12000 --batch 32 --seconds 1680 --holdout 0.01 --seed 7 --out models/demo.safetensors
 "$inkling" convert models/demo.safetensors -o models/demo.inkl
 "$inkling" eval models/demo.inkl --text data/open/kjv-heldout.txt --against models/demo.safetensors
