@@ -1,12 +1,12 @@
 //! Puts `memory.x` on the linker's search path and picks the model image that is built into
 //! flash: the file named by `INKLING_IMAGE` (relative paths are taken from this folder), or
-//! `../tests/data/firmware-default.inkl`.
+//! `../models/demo.inkl`, the bundled demo model.
 
 use std::env;
 use std::fs;
 use std::path::{Path, PathBuf};
 
-const DEFAULT_IMAGE: &str = "../tests/data/firmware-default.inkl";
+const DEFAULT_IMAGE: &str = "../models/demo.inkl";
 
 /// Suggestions per keystroke, and so beams of the session (passed on to main.rs).
 const SUGGESTIONS: usize = 3;

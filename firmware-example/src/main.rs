@@ -17,6 +17,7 @@ mod instruction_clock;
 mod semihosting_io;
 mod stack_paint;
 mod status_log;
+mod step_split;
 
 use cortex_m_rt::entry;
 use inkling_core::engine::recurrence::step;
@@ -124,6 +125,13 @@ fn main() -> ! {
             &mut *core::ptr::addr_of_mut!(ACT),
         )
     };
+
+    // The parts of a step, timed one by one in the engine's own scratch before it takes it.
+    let split = step_split::measure(&model, &clock, per_tick, work, act);
+    log.figure("step_macs", dims.macs_per_step() as u64);
+    log.figure("step_matvec_instructions", split.matvec);
+    log.figure("step_quantise_instructions", split.quantise);
+    log.figure("step_scan_exp_instructions", split.scan_exp);
     let mut scratch = match Scratch::new(&dims, work, act) {
         Ok(scratch) => scratch,
         Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),

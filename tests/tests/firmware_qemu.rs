@@ -31,7 +31,7 @@ fn repo_root() -> PathBuf {
 
 /// The image built into the firmware and loaded on the host.
 fn image_path() -> PathBuf {
-    repo_root().join("tests/data/firmware-default.inkl")
+    repo_root().join("models/demo.inkl")
 }
 
 /// The scripted typing.
