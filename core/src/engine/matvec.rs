@@ -4,7 +4,10 @@
 //! with SMLAD on a Cortex-M4); the float rescale is done in one fixed order on every target,
 //! so every target gets the same bits. The integer kernels are in [`kernels`](super::kernels).
 
+#[cfg(not(target_arch = "x86_64"))]
 pub use super::kernels::portable::dot_i8_i16;
+#[cfg(target_arch = "x86_64")]
+pub use super::kernels::x86_sse2::dot_i8_i16;
 
 use crate::image::views::QuantMatrix;
 
@@ -89,13 +92,17 @@ fn vector(acts: &[i16], cols: usize, j: usize) -> &[i16] {
 #[inline]
 fn row_output(m: &QuantMatrix<'_>, r: usize, act: &[i16], act_scale: f32) -> f32 {
     let row = m.row(r);
-    let scales = m.row_scales(r);
     let group = m.group();
     if group == 0 {
-        dot_i8_i16(row, act) as f32 * scales.get(0) * act_scale
+        // One scale per row: scale r, without slicing out the row's scales.
+        dot_i8_i16(row, act) as f32 * m.scales().get(r) * act_scale
     } else {
         let mut total = 0.0f32;
-        for ((w, a), s) in row.chunks(group).zip(act.chunks(group)).zip(scales.iter()) {
+        for ((w, a), s) in row
+            .chunks(group)
+            .zip(act.chunks(group))
+            .zip(m.row_scales(r).iter())
+        {
             total += dot_i8_i16(w, a) as f32 * s;
         }
         total * act_scale
@@ -107,8 +114,8 @@ fn row_output(m: &QuantMatrix<'_>, r: usize, act: &[i16], act_scale: f32) -> f32
 /// portable one. The same integer sums and the same float rescale as [`row_output`].
 #[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
 mod arm {
-    use crate::engine::kernels::cortex_m4::row_sums;
     use super::{dot_i8_i16, row_output};
+    use crate::engine::kernels::cortex_m4::row_sums;
     use crate::image::views::{Floats, QuantMatrix};
 
     /// `scales.get(0)`, written out so that it inlines into the rescale loop.

@@ -28,7 +28,7 @@ use super::weights::Weights;
 use crate::error::Error;
 use crate::image::dims::Dims;
 use crate::image::format::{Role, VOCAB};
-use crate::image::views::Floats;
+use crate::image::views::{FloatRun, Floats};
 
 /// Splits `n` elements off the front of `buf` (all of it when shorter).
 fn carve<T>(buf: &mut [T], n: usize) -> (&mut [T], &mut [T]) {
@@ -181,7 +181,10 @@ fn run_block<W: Weights + ?Sized>(
     let conv_bias = weights.floats(l, Role::ConvBias);
     for (xz_t, x_t) in a.xz.chunks_exact(2 * i_n).zip(a.xy.chunks_exact_mut(i_n)) {
         x_t.copy_from_slice(xz_t.get(..i_n).unwrap_or(&[]));
-        convolve(x_t, window, conv, conv_bias, k);
+        match conv.as_f32s() {
+            Some(taps) => convolve(x_t, window, taps, conv_bias, k),
+            None => convolve(x_t, window, conv, conv_bias, k),
+        }
     }
 
     // Input-dependent step size, input and output projections.
@@ -204,11 +207,36 @@ fn run_block<W: Weights + ?Sized>(
     }
 
     // Selective scan, byte after byte; y replaces x in place.
-    let scan = ScanWeights {
-        decay: weights.floats(l, Role::Decay),
-        skip: weights.floats(l, Role::Skip),
-        n,
-    };
+    let decay = weights.floats(l, Role::Decay);
+    let skip = weights.floats(l, Role::Skip);
+    match decay.as_f32s() {
+        Some(rates) => scan_pass(
+            &ScanWeights {
+                decay: rates,
+                skip,
+                n,
+            },
+            a,
+            d,
+            ssm,
+        ),
+        None => scan_pass(&ScanWeights { decay, skip, n }, a, d, ssm),
+    }
+
+    weights.matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
+    for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
+        *ui += hi;
+    }
+}
+
+/// The selective scan over the `t` bytes of a pass.
+fn scan_pass<D: FloatRun>(
+    scan: &ScanWeights<'_, D>,
+    a: &mut PassAreas<'_>,
+    d: &Dims,
+    ssm: &mut [f32],
+) {
+    let (i_n, n, r) = (d.d_inner, d.d_state, d.dt_rank);
     for (((xy_t, dt_t), rbc_t), xz_t) in
         a.xy.chunks_exact_mut(i_n)
             .zip(a.dt.chunks_exact(i_n))
@@ -220,26 +248,20 @@ fn run_block<W: Weights + ?Sized>(
         let z = xz_t.get(i_n..).unwrap_or(&[]);
         scan.step(ssm, xy_t, dt_t, b, c, z);
     }
-
-    weights.matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
-    for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
-        *ui += hi;
-    }
 }
 
 /// One byte of the causal depthwise convolution: `x[i] = silu(bias[i] + Σ_k conv[i,k] ·
 /// (window[i] then x[i]))`, and the window moves on by one.
-fn convolve(x: &mut [f32], window: &mut [f32], conv: Floats<'_>, bias: Floats<'_>, k: usize) {
+fn convolve<C: FloatRun>(x: &mut [f32], window: &mut [f32], conv: C, bias: Floats<'_>, k: usize) {
     for (i, xi) in x.iter_mut().enumerate() {
-        let taps = conv.slice(i * k, k);
         let past = window
             .get_mut(i * (k - 1)..(i + 1) * (k - 1))
             .unwrap_or(&mut []);
         let mut acc = bias.get(i);
-        for (tap, &p) in taps.iter().zip(past.iter()) {
+        for (tap, &p) in conv.run(i * k, k - 1).zip(past.iter()) {
             acc += tap * p;
         }
-        acc += taps.get(k - 1) * *xi;
+        acc += conv.at(i * k + k - 1) * *xi;
         if let Some(last) = past.len().checked_sub(1) {
             past.copy_within(1.., 0);
             if let Some(newest) = past.get_mut(last) {
@@ -250,14 +272,14 @@ fn convolve(x: &mut [f32], window: &mut [f32], conv: Floats<'_>, bias: Floats<'_
     }
 }
 
-/// The float weights of the selective scan of one block.
-struct ScanWeights<'a> {
-    decay: Floats<'a>,
+/// The float weights of the selective scan of one block (`decay` holds `A`).
+struct ScanWeights<'a, D: FloatRun> {
+    decay: D,
     skip: Floats<'a>,
     n: usize,
 }
 
-impl ScanWeights<'_> {
+impl<D: FloatRun> ScanWeights<'_, D> {
     /// One byte of the scan (zero-order hold for A, Euler for B), output and gate:
     /// `xy` holds x on entry and y on return.
     fn step(&self, ssm: &mut [f32], xy: &mut [f32], dt: &[f32], b: &[f32], c: &[f32], z: &[f32]) {
@@ -270,15 +292,14 @@ impl ScanWeights<'_> {
         {
             let xi = *yi;
             let dx = dti * xi;
-            let mut acc = 0.0f32;
-            for (((sn, a), &bn), &cn) in s
-                .iter_mut()
-                .zip(self.decay.slice(i * n, n).iter())
-                .zip(b)
-                .zip(c)
-            {
+            // The update has no dependence between states (it vectorises); the read-out
+            // sums in state order, so every target adds in the same order.
+            for ((sn, a), &bn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b) {
                 *sn = exp(dti * a) * *sn + dx * bn;
-                acc += *sn * cn;
+            }
+            let mut acc = 0.0f32;
+            for (&sn, &cn) in s.iter().zip(c) {
+                acc += sn * cn;
             }
             *yi = (acc + self.skip.get(i) * xi) * silu(zi);
         }

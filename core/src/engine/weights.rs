@@ -1,7 +1,8 @@
 //! Where the engine's weights come from.
 
 use super::activation::quantise;
-use super::matvec::matvec;
+use super::buffers::MAX_CHUNK;
+use super::matvec::{matvec, matvec_chunk};
 use crate::image::dims::Dims;
 use crate::image::format::Role;
 use crate::image::views::Floats;
@@ -82,6 +83,38 @@ impl Weights for Model<'_> {
         let act = act.get_mut(..input.len()).unwrap_or(&mut []);
         let scale = quantise(input, act);
         matvec(&m, act, scale, out);
+    }
+
+    fn matvec_chunk(
+        &self,
+        block: usize,
+        role: Role,
+        inputs: &[f32],
+        t: usize,
+        act: &mut [i16],
+        out: &mut [f32],
+    ) {
+        let m = if role == Role::Head {
+            self.head()
+        } else {
+            self.block_matrix(block, role)
+        };
+        let cols = m.cols();
+        let t = t.min(MAX_CHUNK);
+        if cols == 0 || inputs.len() < t * cols {
+            return;
+        }
+        let mut scales = [0.0f32; MAX_CHUNK];
+        for ((x, q), s) in inputs
+            .chunks_exact(cols)
+            .zip(act.chunks_exact_mut(cols))
+            .zip(scales.iter_mut())
+            .take(t)
+        {
+            *s = quantise(x, q);
+        }
+        let act = act.get(..t * cols).unwrap_or(&[]);
+        matvec_chunk(&m, act, scales.get(..t).unwrap_or(&[]), out);
     }
 }
 

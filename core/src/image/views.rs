@@ -58,6 +58,24 @@ impl<'a> Floats<'a> {
         }
     }
 
+    /// The values as plain f32 in memory, when they are: native values, or binary32 bytes
+    /// that are 4-byte aligned on a little-endian target (an image's payloads are 16-byte
+    /// aligned in the image, so this holds wherever the image itself sits 4-byte aligned).
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// assert_eq!(Floats::Native(&[1.5]).as_f32s(), Some(&[1.5f32][..]));
+    /// assert_eq!(Floats::F16Le(&[0, 0x3C]).as_f32s(), None);
+    /// ```
+    pub fn as_f32s(&self) -> Option<&'a [f32]> {
+        match *self {
+            Floats::Native(v) => Some(v),
+            #[cfg(target_endian = "little")]
+            Floats::F32Le(b) => bytemuck::try_cast_slice(b).ok(),
+            _ => None,
+        }
+    }
+
     /// Values `start..start + len` as a view (empty where out of range).
     pub fn slice(&self, start: usize, len: usize) -> Floats<'a> {
         match *self {
@@ -189,5 +207,32 @@ impl<'a> QuantMatrix<'a> {
             .row_scales(r)
             .get(c.checked_div(self.group).unwrap_or(0));
         w as f32 * s
+    }
+}
+
+/// Read access to the values of a float tensor, a run at a time: implemented by plain
+/// `&[f32]` and by [`Floats`], so a hot loop is written once and compiled for both (the
+/// slice version is the one that vectorises).
+pub trait FloatRun: Copy {
+    /// Values `start..start + len` (fewer where out of range).
+    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32>;
+
+    /// Value `i`, or 0.0 past the end.
+    fn at(self, i: usize) -> f32 {
+        self.run(i, 1).next().unwrap_or(0.0)
+    }
+}
+
+impl FloatRun for &[f32] {
+    #[inline]
+    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32> {
+        self.get(start..start + len).unwrap_or(&[]).iter().copied()
+    }
+}
+
+impl FloatRun for Floats<'_> {
+    #[inline]
+    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32> {
+        self.slice(start, len).iter()
     }
 }

@@ -2,6 +2,7 @@
 //!
 //! - [`portable`]: plain Rust, written in fixed-size chunks so that the compiler turns it into
 //!   SIMD on the workstation; it also serves every core without the kernels below.
+//! - `x86_sse2`: SSE2 16-bit multiply-add (in every x86-64 core), 16 columns at a time.
 //! - `cortex_m4`: SXTB16 + SMLAD (two 16-bit multiply-accumulates per instruction) through
 //!   inline assembly, four weight rows per pass, on 32-bit Arm cores with the DSP extension.
 //!
@@ -11,3 +12,5 @@
 #[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
 pub mod cortex_m4;
 pub mod portable;
+#[cfg(target_arch = "x86_64")]
+pub mod x86_sse2;
