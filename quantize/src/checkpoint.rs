@@ -171,9 +171,16 @@ impl Checkpoint {
                 })
             }
         };
-        let blocks = (0..)
-            .take_while(|l| r.has(&format!("blocks.{l}.norm")))
-            .count();
+        // Blocks are numbered from 0: the count is one more than the highest block any schema
+        // tensor names, so a block with a tensor missing is reported, not dropped.
+        let blocks = (0..format::MAX_BLOCKS as usize)
+            .filter(|&l| {
+                Role::BLOCK_ROLES
+                    .iter()
+                    .any(|&role| r.has(&schema_name(role, l)))
+            })
+            .max()
+            .map_or(0, |l| l + 1);
         if blocks == 0 {
             return Err(QuantizeError::Missing {
                 path: path.to_path_buf(),
@@ -219,6 +226,16 @@ impl Checkpoint {
             let (rows, cols) = dims.shape(role);
             let values = r.read(&name, &[rows, cols])?;
             tensors.insert(name, values);
+        }
+        // Every tensor of the file must be one the model uses: an unknown one (a bias this
+        // model has no place for, a block past the last) would otherwise be silently dropped.
+        let used: std::collections::HashSet<&str> =
+            tensors.keys().map(|name| map.lookup(name)).collect();
+        if let Some(extra) = r.st.names().into_iter().find(|n| !used.contains(n)) {
+            return Err(QuantizeError::Unexpected {
+                path: path.to_path_buf(),
+                name: extra.to_string(),
+            });
         }
         Ok(Checkpoint {
             dims,

@@ -49,6 +49,18 @@ enum Stored {
     F16(Vec<f16>),
 }
 
+impl Stored {
+    /// The first value that is NaN or infinite once converted (e.g. `-exp(decay)` or a value
+    /// beyond the f16 range), if any.
+    fn first_non_finite(&self) -> Option<usize> {
+        match self {
+            Stored::Int8(q) => q.scales.iter().position(|s| !s.is_finite()),
+            Stored::F32(v) => v.iter().position(|x| !x.is_finite()),
+            Stored::F16(v) => v.iter().position(|x| !x.is_finite()),
+        }
+    }
+}
+
 struct Converted {
     tensors: Vec<((Role, usize), Stored)>,
 }
@@ -103,6 +115,13 @@ pub fn convert(
                 ("f32", 0.0, f64::INFINITY, bytes),
             )
         };
+        if let Some(index) = stored.first_non_finite() {
+            return Err(QuantizeError::NotFinite {
+                path: checkpoint.path.clone(),
+                name: format!("{name} (as stored in the image)"),
+                index,
+            });
+        }
         let (stored_as, max_abs_error, sqnr, bytes) = report;
         reports.push(TensorReport {
             name,

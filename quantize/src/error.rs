@@ -29,6 +29,14 @@ pub enum QuantizeError {
         /// The schema name (and the mapped name, if a map was given).
         name: String,
     },
+    /// A tensor is not part of the schema (after the name map).
+    #[error("{path}: tensor `{name}` is not part of the model's schema (map it, or remove it)")]
+    Unexpected {
+        /// The file.
+        path: PathBuf,
+        /// The tensor's name in the file.
+        name: String,
+    },
     /// A tensor has a storage type other than F32, F16 or BF16.
     #[error("{path}: tensor `{name}` has type {dtype}; only F32, F16 and BF16 are read")]
     Dtype {

@@ -17,9 +17,12 @@ use inkling_core::{Engine, Error, KeyMap, Model, Scratch, Suggestions};
 use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 
+/// A fuzz target's body: any bytes in, a panic for a finding.
+pub type Body = fn(&[u8]);
+
 /// The fuzz targets by name (the names of the binaries in `fuzz/` and of the folders under
 /// `tests/fuzz-regressions/`), with their bodies.
-pub const TARGETS: [(&str, fn(&[u8])); 4] = [
+pub const TARGETS: [(&str, Body); 4] = [
     ("image_reader", image_reader),
     ("engine_run", engine_run),
     ("session_edits", session_edits),
@@ -36,6 +39,8 @@ const HISTORY: usize = 40;
 const MAX_TEXT: usize = 128;
 /// Step budget of the searches, kept small for the same reason.
 const MAX_STEPS: usize = 64;
+/// Searches per engine input at most, for the same reason.
+const MAX_SEARCHES: usize = 4;
 
 /// Rewrites the trailing CRC-32 so that the structural checks behind it are reached.
 pub fn restamp(image: &mut [u8]) {
@@ -86,7 +91,7 @@ fn read_every_tensor(bytes: &[u8]) {
 /// Target `engine_run`. Input: a little-endian u16 length `L`, `L` bytes of image (its
 /// checksum made right) and text. An image that loads is run by an [`Engine`] over the text
 /// (at most [`MAX_TEXT`] bytes), state saved and restored halfway, and by a typing session
-/// that suggests completions at every word boundary.
+/// that suggests completions at the first [`MAX_SEARCHES`] word boundaries.
 pub fn engine_run(data: &[u8]) {
     let Some((len, rest)) = data.split_first_chunk::<2>() else {
         return;
@@ -121,12 +126,14 @@ pub fn engine_run(data: &[u8]) {
     let mut buffers = SessionBuffers::new(&dims);
     let mut session = buffers.session(model);
     let options = search_options(BEAMS);
+    let mut searches = 0;
     for &b in text {
         match session.push(b) {
             Ok(()) | Err(Error::CapacityExceeded { .. }) => {}
             Err(e) => panic!("push refused with {e}"),
         }
-        if session.word().is_empty() {
+        if session.word().is_empty() && searches < MAX_SEARCHES {
+            searches += 1;
             let found = session.suggest(&options).expect("a search within capacity");
             assert!(found.list.len() <= BEAMS && found.steps <= MAX_STEPS);
         }
@@ -153,7 +160,8 @@ pub fn session_edits(data: &[u8]) {
         match op % 8 {
             0..=2 => push(&mut session, &mut seen, arg),
             3 => {
-                for _ in 0..arg % 48 {
+                // Runs of up to 15; a few runs in a row reach back past the history's start.
+                for _ in 0..arg % 16 {
                     backspace(&mut session, &mut seen);
                 }
             }

@@ -2,10 +2,8 @@
 //! of whole engine steps and keystrokes counted in QEMU (`tests/firmware/calibrate.sh`, exact
 //! under `-icount shift=0`), and image sizes written by `inkling convert` for the same shapes.
 
-use inkling_host::cost_model::{
-    calibration, image_bytes, Calibration, CostModel,
-};
 use inkling_host::commands::budget::{fitting, parse_size};
+use inkling_host::cost_model::{calibration, image_bytes, Calibration, CostModel};
 
 fn measured() -> Calibration {
     Calibration::parse(calibration::BUILT_IN).expect("tests/firmware/calibration.txt reads")
