@@ -22,19 +22,32 @@ fn is_image(bytes: &[u8]) -> bool {
     bytes.starts_with(&inkling_core::image::format::MAGIC)
 }
 
+/// The validated model view of image `bytes` read from `path` (named in the error).
+pub fn image_model<'a>(bytes: &'a [u8], path: &Path) -> Result<Model<'a>, HostError> {
+    Model::from_bytes(bytes).map_err(|source| HostError::Image {
+        path: path.to_path_buf(),
+        source,
+    })
+}
+
 impl ModelFile {
     /// Opens an image or a checkpoint (told apart by the image magic).
     pub fn open(path: &Path) -> Result<Self, HostError> {
         let bytes = std::fs::read(path).map_err(HostError::io(path))?;
         if is_image(&bytes) {
-            Model::from_bytes(&bytes).map_err(|source| HostError::Image {
-                path: path.to_path_buf(),
-                source,
-            })?;
+            image_model(&bytes, path)?;
             Ok(ModelFile::Image(bytes))
         } else {
             let ck = Checkpoint::from_bytes(&bytes, path, &NameMap::identity())?;
             Ok(ModelFile::Float(Box::new(FloatModel::new(ck))))
+        }
+    }
+
+    /// The image's bytes, if this is an image.
+    pub fn image_bytes(&self) -> Option<&[u8]> {
+        match self {
+            ModelFile::Image(bytes) => Some(bytes),
+            ModelFile::Float(_) => None,
         }
     }
 

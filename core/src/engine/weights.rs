@@ -5,7 +5,7 @@ use super::buffers::MAX_CHUNK;
 use super::matvec::{matvec, matvec_chunk};
 use crate::image::dims::Dims;
 use crate::image::format::Role;
-use crate::image::views::Floats;
+use crate::image::views::{Floats, QuantMatrix};
 use crate::Model;
 
 /// A source of model weights that [`step`](super::recurrence::step) can run on.
@@ -50,6 +50,15 @@ pub trait Weights {
     }
 }
 
+/// The int8 matrix behind `(block, role)`: the output head for [`Role::Head`].
+fn quant_matrix<'a>(model: &Model<'a>, block: usize, role: Role) -> QuantMatrix<'a> {
+    if role == Role::Head {
+        model.head()
+    } else {
+        model.block_matrix(block, role)
+    }
+}
+
 impl Weights for Model<'_> {
     fn dims(&self) -> &Dims {
         Model::dims(self)
@@ -75,11 +84,7 @@ impl Weights for Model<'_> {
     }
 
     fn matvec(&self, block: usize, role: Role, input: &[f32], act: &mut [i16], out: &mut [f32]) {
-        let m = if role == Role::Head {
-            self.head()
-        } else {
-            self.block_matrix(block, role)
-        };
+        let m = quant_matrix(self, block, role);
         let act = act.get_mut(..input.len()).unwrap_or(&mut []);
         let scale = quantise(input, act);
         matvec(&m, act, scale, out);
@@ -94,11 +99,7 @@ impl Weights for Model<'_> {
         act: &mut [i16],
         out: &mut [f32],
     ) {
-        let m = if role == Role::Head {
-            self.head()
-        } else {
-            self.block_matrix(block, role)
-        };
+        let m = quant_matrix(self, block, role);
         let cols = m.cols();
         let t = t.min(MAX_CHUNK);
         if cols == 0 || inputs.len() < t * cols {

@@ -5,7 +5,6 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 
 use inkling_core::session::{KeyMap, SearchOptions, DEFAULT_MAX_STEPS};
-use inkling_core::Model;
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
@@ -13,7 +12,7 @@ use crate::keystroke_savings::simulation::whole_words;
 use crate::keystroke_savings::{
     compare, simulate_with, FrequencyBaseline, ModelPredictor, Offer, SessionMemory,
 };
-use crate::model_file::ModelFile;
+use crate::model_file::{image_model, ModelFile};
 use crate::text_scoring::{bits_per_byte, log_softmax, HostEngine};
 
 /// Where the repository keeps the demo model and its held-out text.
@@ -243,11 +242,13 @@ fn continue_greedily(file: &ModelFile, prompt: &str, len: usize) -> String {
 pub fn run(args: &DemoArgs) -> Result<(), HostError> {
     let image = ModelFile::open(&args.image)?;
     let float = ModelFile::open(&args.checkpoint)?;
-    let bytes = std::fs::read(&args.image).map_err(HostError::io(&args.image))?;
-    let model = Model::from_bytes(&bytes).map_err(|source| HostError::Image {
-        path: args.image.clone(),
-        source,
+    let bytes = image.image_bytes().ok_or_else(|| {
+        HostError::Usage(format!(
+            "{}: --image must be a packed image",
+            args.image.display()
+        ))
     })?;
+    let model = image_model(bytes, &args.image)?;
     let d = *model.dims();
     let mut report = serde_json::json!({
         "image": args.image,

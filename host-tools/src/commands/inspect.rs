@@ -2,9 +2,8 @@
 
 use std::path::PathBuf;
 
-use inkling_core::Model;
-
 use crate::error::HostError;
+use crate::model_file::image_model;
 
 /// Arguments of `inkling inspect`.
 #[derive(Debug, clap::Args)]
@@ -22,10 +21,7 @@ pub struct InspectArgs {
 /// Runs `inkling inspect`.
 pub fn run(args: &InspectArgs) -> Result<(), HostError> {
     let bytes = std::fs::read(&args.image).map_err(HostError::io(&args.image))?;
-    let model = Model::from_bytes(&bytes).map_err(|source| HostError::Image {
-        path: args.image.clone(),
-        source,
-    })?;
+    let model = image_model(&bytes, &args.image)?;
     let d = *model.dims();
     let tensors: Vec<_> = model
         .tensors()
