@@ -33,17 +33,20 @@ pub fn exp(x: f32) -> f32 {
     // without IEEE 754-2008 min/max): each is one compare and select, and NaN passes through.
     let x = if x < -87.3 { -87.3 } else { x };
     let x = if x > 88.7 { 88.7 } else { x };
-    let n = (x * LOG2_E + ROUNDER) - ROUNDER;
+    let shifted = x * LOG2_E + ROUNDER;
+    let n = shifted - ROUNDER;
     let r = (x - n * LN2_HI) - n * LN2_LO;
     let p = 1.0
         + r * (1.0
             + r * (0.5
                 + r * (1.0 / 6.0 + r * (1.0 / 24.0 + r * (1.0 / 120.0 + r * (1.0 / 720.0))))));
-    // n is an integer in [-126, 128]: 2^n has exponent bits n + 127. Split in two factors so
-    // that n = 128 (x just below ln(f32::MAX)) still makes a finite power.
-    let half = n as i32 / 2;
+    // n is an integer in [-126, 128], and `shifted` holds it in its low mantissa bits: read
+    // it from there (integer work only, no float-to-int conversion). 2^n has exponent bits
+    // n + 127; split in two factors so that n = 128 still makes finite powers.
+    let k = shifted.to_bits() as i32 - ROUNDER.to_bits() as i32;
+    let half = k >> 1;
     let pow = |e: i32| f32::from_bits(((e + 127) as u32) << 23);
-    p * pow(half) * pow(n as i32 - half)
+    p * pow(half) * pow(k - half)
 }
 
 /// SiLU: `x · σ(x) = x / (1 + e^(−x))`.
