@@ -93,6 +93,17 @@ pub enum Error {
 }
 
 /// What is wrong with a tensor table entry (see [`Error::BadTensor`]).
+///
+/// ```
+/// use inkling_core::{Error, Model, error::TensorProblem, image::checksum::crc32};
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[64 + 16] += 1; // entry 0's payload offset, no longer a multiple of 16
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadTensor { index: 0, problem: TensorProblem::Misaligned, offset: 64 });
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum TensorProblem {

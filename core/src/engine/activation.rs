@@ -1,6 +1,13 @@
 //! Dynamic, symmetric, per-vector int8 quantisation of activations.
 
 /// The largest magnitude of a quantised activation.
+///
+/// ```
+/// use inkling_core::engine::activation::{quantise, ACT_MAX};
+/// let mut q = [0i16; 2];
+/// quantise(&[-3.0, 1.5], &mut q);
+/// assert_eq!(q, [-ACT_MAX as i16, 64]); // the largest magnitude maps to ±ACT_MAX
+/// ```
 pub const ACT_MAX: f32 = 127.0;
 
 /// 1.5 · 2^23: see [`quantise`].

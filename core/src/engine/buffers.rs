@@ -6,6 +6,15 @@ use crate::image::format::VOCAB;
 
 /// The most bytes one prefill pass takes, however large the scratch (it bounds the stack
 /// array of per-byte activation scales).
+///
+/// ```
+/// use inkling_core::{engine::buffers::MAX_CHUNK, Scratch, image::example::TINY_DIMS as D};
+/// let mut work = vec![0.0f32; D.chunk_work_len(2 * MAX_CHUNK)];
+/// let mut act = vec![0i16; D.chunk_act_len(2 * MAX_CHUNK)];
+/// // Room for 64 bytes a pass, but a pass takes at most MAX_CHUNK.
+/// assert_eq!(Scratch::new(&D, &mut work, &mut act)?.chunk_capacity(), MAX_CHUNK);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub const MAX_CHUNK: usize = 32;
 
 /// The scratch of one step: f32 work space and the quantised-activation buffer. One scratch
@@ -45,6 +54,15 @@ pub(crate) fn check_len(buffer: &'static str, needed: usize, actual: usize) -> R
 impl<'b> Scratch<'b> {
     /// Wraps caller buffers of at least [`Dims::work_len`] f32 and [`Dims::act_len`] i16
     /// elements; longer buffers are fine (the rest is unused).
+    ///
+    /// ```
+    /// use inkling_core::{Scratch, image::example::TINY_DIMS as D};
+    /// let mut work = vec![0.0f32; D.work_len()];
+    /// let mut act = vec![0i16; D.act_len()];
+    /// assert!(Scratch::new(&D, &mut work, &mut act[1..]).is_err()); // one i16 short
+    /// assert_eq!(Scratch::new(&D, &mut work, &mut act)?.chunk_capacity(), 1);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn new(dims: &Dims, work: &'b mut [f32], act: &'b mut [i16]) -> Result<Self, Error> {
         check_len("work", dims.work_len(), work.len())?;
         check_len("act", dims.act_len(), act.len())?;
@@ -55,6 +73,17 @@ impl<'b> Scratch<'b> {
     }
 
     /// The logits of the last step (256 values).
+    ///
+    /// ```
+    /// use inkling_core::{Model, Scratch, engine::recurrence::step};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = Model::from_bytes(&image)?;
+    /// let (mut state, mut work, mut act) = ([0.0f32; 112], [0.0f32; 346], [0i16; 16]);
+    /// let mut scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let returned = step(&model, &mut state, &mut scratch, b'a')?.to_vec();
+    /// assert_eq!(scratch.logits(), &returned[..]);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn logits(&self) -> &[f32] {
         self.work.get(..VOCAB).unwrap_or(&[])
     }
@@ -97,6 +126,14 @@ pub struct EngineBuffers<const STATE: usize, const WORK: usize, const ACT: usize
 
 impl<const STATE: usize, const WORK: usize, const ACT: usize> EngineBuffers<STATE, WORK, ACT> {
     /// Zeroed buffers (usable in a `static`).
+    ///
+    /// ```
+    /// use inkling_core::{EngineBuffers, image::example::TINY_DIMS as D};
+    /// // Sized exactly for the tiny model, at compile time.
+    /// static BUFFERS: EngineBuffers<{ D.state_len() }, { D.work_len() }, { D.act_len() }> =
+    ///     EngineBuffers::new();
+    /// assert!(BUFFERS.state.iter().all(|&s| s == 0.0));
+    /// ```
     pub const fn new() -> Self {
         EngineBuffers {
             state: [0.0; STATE],

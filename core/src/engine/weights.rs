@@ -12,6 +12,16 @@ use crate::Model;
 ///
 /// The int8 [`Model`] implements it; the workstation's float engine does too, so both run
 /// the very same recurrence and differ only in their matrix products.
+///
+/// ```
+/// use inkling_core::{Model, engine::weights::Weights};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = Model::from_bytes(&image)?;
+/// let mut e = [0.0f32; 8];
+/// model.embed(b'a', &mut e); // the dequantised row of `byte_embed`
+/// assert_eq!(e[3], model.byte_embed().weight(b'a' as usize, 3));
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub trait Weights {
     /// The model's dimensions.
     fn dims(&self) -> &Dims;

@@ -41,11 +41,22 @@ pub struct Dims {
 impl Dims {
     /// f32 elements of one engine state: per block, the convolution window
     /// `[I, K-1]` and the SSM state `[I, N]`. It never grows with the text.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.state_len(), 1 * 16 * (4 - 1 + 4)); // blocks · I · (K-1 + N)
+    /// ```
     pub const fn state_len(&self) -> usize {
         self.blocks * self.d_inner * (self.d_conv - 1 + self.d_state)
     }
 
     /// Bytes of one engine state.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.state_bytes(), D.state_len() * core::mem::size_of::<f32>());
+    /// assert_eq!(D.state_bytes(), 448);
+    /// ```
     pub const fn state_bytes(&self) -> usize {
         4 * self.state_len()
     }
@@ -53,6 +64,14 @@ impl Dims {
     /// f32 elements of the scratch the engine needs for one step (shared by all states): the
     /// logits `[256]`, residual and normalised residual `[D]` each, `[x; z]` `[2I]`,
     /// `[r; B; C]` `[R + 2N]`, step sizes and block input/output `[I]` each.
+    ///
+    /// ```
+    /// use inkling_core::{Scratch, image::example::TINY_DIMS as D};
+    /// assert_eq!(D.work_len(), 256 + 2 * 8 + 2 * 16 + 2 + 2 * 4 + 2 * 16);
+    /// let (mut work, mut act) = (vec![0.0f32; D.work_len()], vec![0i16; D.act_len()]);
+    /// assert!(Scratch::new(&D, &mut work[1..], &mut act).is_err());
+    /// assert!(Scratch::new(&D, &mut work, &mut act).is_ok());
+    /// ```
     pub const fn work_len(&self) -> usize {
         2 * self.d_model
             + 2 * self.d_inner
@@ -64,16 +83,34 @@ impl Dims {
 
     /// f32 elements of scratch for prefilling `chunk` bytes in one pass: the logits once and
     /// everything else of [`Dims::work_len`] once per byte.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.chunk_work_len(1), D.work_len());
+    /// assert_eq!(D.chunk_work_len(8), 256 + 8 * (D.work_len() - 256));
+    /// ```
     pub const fn chunk_work_len(&self, chunk: usize) -> usize {
         VOCAB + chunk * (self.work_len() - VOCAB)
     }
 
     /// i16 elements of activation scratch for prefilling `chunk` bytes in one pass.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.chunk_act_len(1), D.act_len());
+    /// assert_eq!(D.chunk_act_len(8), 8 * 16);
+    /// ```
     pub const fn chunk_act_len(&self, chunk: usize) -> usize {
         chunk * self.act_len()
     }
 
     /// i16 elements of the quantised-activation scratch: the widest matrix input.
+    ///
+    /// ```
+    /// use inkling_core::{Dims, image::example::TINY_DIMS as D};
+    /// assert_eq!(D.act_len(), D.d_inner); // I 16 is wider than D 8
+    /// assert_eq!(Dims { d_model: 32, ..D }.act_len(), 32);
+    /// ```
     pub const fn act_len(&self) -> usize {
         if self.d_model > self.d_inner {
             self.d_model
@@ -83,11 +120,23 @@ impl Dims {
     }
 
     /// Bytes of scratch (work and activations together).
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.scratch_bytes(), 4 * D.work_len() + 2 * D.act_len());
+    /// assert_eq!(D.scratch_bytes(), 1416);
+    /// ```
     pub const fn scratch_bytes(&self) -> usize {
         4 * self.work_len() + 2 * self.act_len()
     }
 
     /// Number of tensors in an image of these dimensions.
+    ///
+    /// ```
+    /// use inkling_core::{Dims, image::example::TINY_DIMS as D};
+    /// assert_eq!(D.tensor_count(), 1 + 10 + 1); // byte_embed, one block, final_norm
+    /// assert_eq!(Dims { tied_head: false, ..D }.tensor_count(), 13); // and head
+    /// ```
     pub const fn tensor_count(&self) -> usize {
         1 + TENSORS_PER_BLOCK * self.blocks + 1 + if self.tied_head { 0 } else { 1 }
     }
@@ -127,6 +176,12 @@ impl Dims {
     }
 
     /// Scales per row of an int8 matrix with `cols` columns.
+    ///
+    /// ```
+    /// use inkling_core::{Dims, image::example::TINY_DIMS as D};
+    /// assert_eq!(D.scales_per_row(16), 1); // group 0: one scale per row
+    /// assert_eq!(Dims { group: 6, ..D }.scales_per_row(16), 3); // ceil(16 / 6)
+    /// ```
     pub const fn scales_per_row(&self, cols: usize) -> usize {
         if self.group == 0 {
             1
@@ -136,6 +191,12 @@ impl Dims {
     }
 
     /// Multiply-accumulates of int8 weights in one step (all matrix-vector products).
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// // expand, select and contract of the one block, then the head
+    /// assert_eq!(D.macs_per_step(), 2 * 16 * 8 + (2 + 2 * 4) * 16 + 8 * 16 + 256 * 8);
+    /// ```
     pub const fn macs_per_step(&self) -> usize {
         let per_block = 2 * self.d_inner * self.d_model
             + (self.dt_rank + 2 * self.d_state) * self.d_inner

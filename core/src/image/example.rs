@@ -16,9 +16,23 @@ const K: usize = 4;
 const R: usize = 2;
 
 /// Length in bytes of [`tiny_image`].
+///
+/// ```
+/// use inkling_core::image::{example::*, writer::image_len};
+/// let (dims, tensors) = tiny_tensors();
+/// assert_eq!(image_len(&dims, &tensors), TINY_IMAGE_LEN);
+/// assert_eq!(tiny_image().len(), TINY_IMAGE_LEN);
+/// ```
 pub const TINY_IMAGE_LEN: usize = 4948;
 
 /// The dimensions of the tiny example model: 1 block, D 8, I 16, N 4, K 4, R 2, tied head.
+///
+/// ```
+/// let d = inkling_core::image::example::TINY_DIMS;
+/// assert_eq!((d.blocks, d.d_model, d.d_inner), (1, 8, 16));
+/// assert_eq!((d.d_state, d.d_conv, d.dt_rank), (4, 4, 2));
+/// assert!(d.tied_head);
+/// ```
 pub const TINY_DIMS: Dims = Dims {
     d_model: D,
     d_inner: I,
@@ -32,6 +46,13 @@ pub const TINY_DIMS: Dims = Dims {
 };
 
 /// The tensors of the tiny example model.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_tensors, format::Role, writer::{Payload, TensorSource}};
+/// let (_, tensors) = tiny_tensors();
+/// let expand = tensors.payload(Role::Expand, 0);
+/// assert!(matches!(expand, Payload::Int8 { weights, .. } if weights.len() == 2 * 16 * 8));
+/// ```
 #[derive(Debug, Clone)]
 pub struct TinyTensors {
     embed: [i8; 256 * D],

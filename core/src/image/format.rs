@@ -50,40 +50,197 @@
 //! The last 4 bytes are the CRC-32/ISO-HDLC of every byte before them.
 
 /// The four bytes every image starts with.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_image, format::*};
+/// assert_eq!(MAGIC, *b"INKL");
+/// assert_eq!(tiny_image()[..4], MAGIC);
+/// ```
 pub const MAGIC: [u8; 4] = *b"INKL";
 /// The major version this reader and writer speak.
+///
+/// ```
+/// use inkling_core::{Model, image::format::MAJOR_VERSION};
+/// # let image = inkling_core::image::example::tiny_image();
+/// assert_eq!(Model::from_bytes(&image)?.version().0, MAJOR_VERSION);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub const MAJOR_VERSION: u16 = 1;
 /// The minor version this writer writes.
+///
+/// ```
+/// use inkling_core::{Model, image::format::{MAJOR_VERSION, MINOR_VERSION}};
+/// # let image = inkling_core::image::example::tiny_image();
+/// assert_eq!(Model::from_bytes(&image)?.version(), (MAJOR_VERSION, MINOR_VERSION));
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub const MINOR_VERSION: u16 = 0;
 /// Size of the fixed header in bytes.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_image, format::*};
+/// let image = tiny_image();
+/// assert_eq!(HEADER_LEN, 64);
+/// assert_eq!(image[52..56], (HEADER_LEN as u32).to_le_bytes()); // the table offset field
+/// ```
 pub const HEADER_LEN: usize = 64;
 /// Size of one tensor table entry in bytes.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_image, format::*};
+/// let image = tiny_image();
+/// let raw: [u8; ENTRY_LEN] = image[HEADER_LEN..HEADER_LEN + ENTRY_LEN].try_into().unwrap();
+/// assert_eq!(TensorEntry::decode(&raw).map(|e| e.role), Ok(Role::ByteEmbed));
+/// ```
 pub const ENTRY_LEN: usize = 24;
 /// Size of the trailing checksum in bytes.
+///
+/// ```
+/// use inkling_core::image::{checksum::crc32, example::tiny_image, format::CRC_LEN};
+/// let image = tiny_image();
+/// let body = image.len() - CRC_LEN;
+/// assert_eq!(image[body..], crc32(&image[..body]).to_le_bytes());
+/// ```
 pub const CRC_LEN: usize = 4;
 /// Alignment of every payload, in bytes.
+///
+/// ```
+/// use inkling_core::{Model, image::format::ALIGN};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = inkling_core::Model::from_bytes(&image)?;
+/// let aligned = |offset: u32| offset as usize % ALIGN == 0;
+/// assert!(model.tensors().all(|e| aligned(e.data_offset) && aligned(e.scales_offset)));
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub const ALIGN: usize = 16;
 /// The vocabulary: one symbol per byte value.
+///
+/// ```
+/// use inkling_core::{Model, image::format::VOCAB};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = inkling_core::Model::from_bytes(&image)?;
+/// assert_eq!(VOCAB, usize::from(u8::MAX) + 1);
+/// assert_eq!(model.byte_embed().rows(), VOCAB);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub const VOCAB: usize = 256;
 /// Number of tensors each block has.
+///
+/// ```
+/// use inkling_core::image::{example::TINY_DIMS, format::{Role, TENSORS_PER_BLOCK}};
+/// assert_eq!(Role::BLOCK_ROLES.len(), TENSORS_PER_BLOCK);
+/// assert_eq!(TINY_DIMS.tensor_count(), 1 + TENSORS_PER_BLOCK * TINY_DIMS.blocks + 1);
+/// ```
 pub const TENSORS_PER_BLOCK: usize = 10;
 
 /// Largest `d_model` an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_D_MODEL};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[12..16].copy_from_slice(&(MAX_D_MODEL + 1).to_le_bytes()); // the header field d_model
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "d_model", offset: 12 });
+/// ```
 pub const MAX_D_MODEL: u32 = 4096;
 /// Largest `d_inner` an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_D_INNER};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[16..20].copy_from_slice(&(MAX_D_INNER + 1).to_le_bytes()); // the header field d_inner
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "d_inner", offset: 16 });
+/// ```
 pub const MAX_D_INNER: u32 = 8192;
 /// Largest `d_state` an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_D_STATE};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[20..24].copy_from_slice(&(MAX_D_STATE + 1).to_le_bytes()); // the header field d_state
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "d_state", offset: 20 });
+/// ```
 pub const MAX_D_STATE: u32 = 256;
 /// Largest convolution width an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_D_CONV};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[24..28].copy_from_slice(&(MAX_D_CONV + 1).to_le_bytes()); // the header field d_conv
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "d_conv", offset: 24 });
+/// ```
 pub const MAX_D_CONV: u32 = 16;
 /// Largest `dt_rank` an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_DT_RANK};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[28..32].copy_from_slice(&(MAX_DT_RANK + 1).to_le_bytes()); // the header field dt_rank
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "dt_rank", offset: 28 });
+/// ```
 pub const MAX_DT_RANK: u32 = 1024;
 /// Largest number of blocks an image may declare.
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_BLOCKS};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[32..36].copy_from_slice(&(MAX_BLOCKS + 1).to_le_bytes()); // the header field blocks
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "blocks", offset: 32 });
+/// ```
 pub const MAX_BLOCKS: u32 = 64;
 /// Largest scale group an image may declare (columns per scale).
+///
+/// ```
+/// use inkling_core::{Error, Model, image::format::MAX_GROUP};
+/// use inkling_core::image::checksum::crc32;
+/// let mut image = inkling_core::image::example::tiny_image();
+/// image[44..48].copy_from_slice(&(MAX_GROUP + 1).to_le_bytes()); // the header field group size
+/// let n = image.len() - 4; // re-seal the CRC, so the reader gets past it
+/// let crc = crc32(&image[..n]).to_le_bytes();
+/// image[n..].copy_from_slice(&crc);
+/// let err = Model::from_bytes(&image).unwrap_err();
+/// assert_eq!(err, Error::BadHeader { field: "group", offset: 44 });
+/// ```
 pub const MAX_GROUP: u32 = 65535;
 
 /// Header flag: the output head is `byte_embed` itself.
+///
+/// ```
+/// use inkling_core::image::{example::{tiny_image, TINY_DIMS}, format::FLAG_TIED_HEAD};
+/// let image = tiny_image();
+/// let flags = u32::from_le_bytes(image[36..40].try_into().unwrap());
+/// assert!(TINY_DIMS.tied_head);
+/// assert_eq!(flags, FLAG_TIED_HEAD);
+/// ```
 pub const FLAG_TIED_HEAD: u32 = 1;
 
 /// What a tensor is. The code is what the tensor table stores.
@@ -125,6 +282,16 @@ pub enum Role {
 
 impl Role {
     /// The ten roles of a block, in canonical table order.
+    ///
+    /// ```
+    /// use inkling_core::{Model, image::format::Role};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// // Block 0's entries follow byte_embed in the table, in this order.
+    /// let roles: Vec<Role> = model.tensors().skip(1).take(10).map(|e| e.role).collect();
+    /// assert_eq!(roles, Role::BLOCK_ROLES);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub const BLOCK_ROLES: [Role; TENSORS_PER_BLOCK] = [
         Role::Norm,
         Role::Expand,
@@ -139,6 +306,13 @@ impl Role {
     ];
 
     /// The code stored in the tensor table.
+    ///
+    /// ```
+    /// use inkling_core::image::{example::tiny_image, format::{Role, HEADER_LEN}};
+    /// assert_eq!((Role::ByteEmbed.code(), Role::Norm.code()), (0, 16)); // block roles from 16
+    /// let image = tiny_image(); // the first table entry's role field
+    /// assert_eq!(image[HEADER_LEN..HEADER_LEN + 2], Role::ByteEmbed.code().to_le_bytes());
+    /// ```
     pub const fn code(self) -> u16 {
         match self {
             Role::ByteEmbed => 0,
@@ -158,6 +332,12 @@ impl Role {
     }
 
     /// The role with this code, if any.
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// assert_eq!(Role::from_code(25), Some(Role::Contract));
+    /// assert_eq!(Role::from_code(3), None);
+    /// ```
     pub fn from_code(code: u16) -> Option<Role> {
         [Role::ByteEmbed, Role::FinalNorm, Role::Head]
             .into_iter()
@@ -166,6 +346,12 @@ impl Role {
     }
 
     /// The checkpoint schema's name for this role (without the `blocks.l.` prefix).
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// assert_eq!(Role::StepBias.name(), "step_bias");
+    /// assert_eq!(Role::ByteEmbed.name(), "byte_embed");
+    /// ```
     pub const fn name(self) -> &'static str {
         match self {
             Role::ByteEmbed => "byte_embed",
@@ -185,6 +371,15 @@ impl Role {
     }
 
     /// Whether this role is an int8 matrix with scales (otherwise it is float).
+    ///
+    /// ```
+    /// use inkling_core::{Model, image::format::{ElementType, Role}};
+    /// assert!(Role::Select.is_quantised() && !Role::Decay.is_quantised());
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert!(model.tensors().all(|e| e.role.is_quantised() == (e.element == ElementType::Int8)));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub const fn is_quantised(self) -> bool {
         matches!(
             self,
@@ -193,6 +388,12 @@ impl Role {
     }
 
     /// Whether this role belongs to a block (otherwise to the whole model).
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// assert!(Role::Conv.is_block_role() && !Role::FinalNorm.is_block_role());
+    /// assert!(Role::BLOCK_ROLES.iter().all(|r| r.is_block_role()));
+    /// ```
     pub const fn is_block_role(self) -> bool {
         !matches!(self, Role::ByteEmbed | Role::FinalNorm | Role::Head)
     }
@@ -217,6 +418,14 @@ pub enum ElementType {
 
 impl ElementType {
     /// The code stored in the tensor table.
+    ///
+    /// ```
+    /// use inkling_core::image::format::ElementType;
+    /// for t in [ElementType::F32, ElementType::F16, ElementType::Int8] {
+    ///     assert_eq!(ElementType::from_code(t.code()), Some(t));
+    /// }
+    /// assert_eq!(ElementType::Int8.code(), 2);
+    /// ```
     pub const fn code(self) -> u8 {
         match self {
             ElementType::F32 => 0,
@@ -226,6 +435,12 @@ impl ElementType {
     }
 
     /// The element type with this code, if any.
+    ///
+    /// ```
+    /// use inkling_core::image::format::ElementType;
+    /// assert_eq!(ElementType::from_code(0), Some(ElementType::F32));
+    /// assert_eq!(ElementType::from_code(3), None);
+    /// ```
     pub const fn from_code(code: u8) -> Option<ElementType> {
         match code {
             0 => Some(ElementType::F32),
@@ -236,6 +451,12 @@ impl ElementType {
     }
 
     /// Bytes per element.
+    ///
+    /// ```
+    /// use inkling_core::image::format::ElementType;
+    /// assert_eq!(ElementType::F32.size(), core::mem::size_of::<f32>());
+    /// assert_eq!(ElementType::Int8.size(), 1);
+    /// ```
     pub const fn size(self) -> usize {
         match self {
             ElementType::F32 => 4,
@@ -276,6 +497,16 @@ pub struct TensorEntry {
 }
 
 /// Why a raw table entry could not be decoded.
+///
+/// ```
+/// use inkling_core::image::format::{EntryDecodeError, Role, TensorEntry};
+/// let mut raw = [0u8; 24];
+/// raw[0] = 3; // no role has code 3
+/// assert_eq!(TensorEntry::decode(&raw), Err(EntryDecodeError::Role));
+/// raw[0..2].copy_from_slice(&Role::Norm.code().to_le_bytes());
+/// raw[6] = 1; // a reserved byte
+/// assert_eq!(TensorEntry::decode(&raw), Err(EntryDecodeError::Reserved));
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum EntryDecodeError {
     /// Unknown role code.
@@ -304,6 +535,15 @@ fn u32_at(raw: &[u8; ENTRY_LEN], at: usize) -> u32 {
 
 impl TensorEntry {
     /// Writes the entry in its 24-byte table form.
+    ///
+    /// ```
+    /// use inkling_core::image::{example::tiny_image, format::*};
+    /// let image = tiny_image();
+    /// let raw: [u8; ENTRY_LEN] = image[HEADER_LEN..HEADER_LEN + ENTRY_LEN].try_into().unwrap();
+    /// let mut again = [0u8; ENTRY_LEN];
+    /// TensorEntry::decode(&raw).unwrap().encode(&mut again);
+    /// assert_eq!(again, raw); // byte for byte what the writer wrote
+    /// ```
     pub fn encode(&self, out: &mut [u8; ENTRY_LEN]) {
         let scale = self.scale.map_or(0, |s| match s {
             ElementType::F32 => 1,
@@ -328,6 +568,15 @@ impl TensorEntry {
     }
 
     /// Reads an entry from its 24-byte table form.
+    ///
+    /// ```
+    /// use inkling_core::image::{example::tiny_image, format::*};
+    /// let image = tiny_image();
+    /// let raw: [u8; ENTRY_LEN] = image[HEADER_LEN..HEADER_LEN + ENTRY_LEN].try_into().unwrap();
+    /// let e = TensorEntry::decode(&raw).unwrap();
+    /// assert_eq!((e.role, e.element), (Role::ByteEmbed, ElementType::Int8));
+    /// assert_eq!((e.rows, e.cols), (256, 8));
+    /// ```
     pub fn decode(raw: &[u8; ENTRY_LEN]) -> Result<TensorEntry, EntryDecodeError> {
         let role = Role::from_code(u16_at(raw, 0)).ok_or(EntryDecodeError::Role)?;
         let element = ElementType::from_code(raw[4]).ok_or(EntryDecodeError::Type)?;
@@ -354,6 +603,13 @@ impl TensorEntry {
 }
 
 /// Rounds `n` up to the next multiple of [`ALIGN`], or `None` on overflow.
+///
+/// ```
+/// use inkling_core::image::format::align_up;
+/// assert_eq!(align_up(0), Some(0));
+/// assert_eq!(align_up(17), Some(32));
+/// assert_eq!(align_up(usize::MAX), None);
+/// ```
 pub const fn align_up(n: usize) -> Option<usize> {
     match n.checked_add(ALIGN - 1) {
         Some(v) => Some(v / ALIGN * ALIGN),

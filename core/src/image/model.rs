@@ -281,26 +281,63 @@ impl<'a> Model<'a> {
     }
 
     /// The model's dimensions.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.dims(), &inkling_core::image::example::TINY_DIMS);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn dims(&self) -> &Dims {
         &self.dims
     }
 
     /// The image bytes this model reads (all of them stay in flash).
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.bytes().as_ptr(), image.as_ptr()); // borrowed, not copied
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn bytes(&self) -> &'a [u8] {
         self.bytes
     }
 
     /// Flash the image takes, in bytes.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.flash_bytes(), inkling_core::image::example::TINY_IMAGE_LEN);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn flash_bytes(&self) -> usize {
         self.bytes.len()
     }
 
     /// The image's version as `(major, minor)`.
+    ///
+    /// ```
+    /// use inkling_core::image::format::{MAJOR_VERSION, MINOR_VERSION};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.version(), (MAJOR_VERSION, MINOR_VERSION));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn version(&self) -> (u16, u16) {
         (u16_at(self.bytes, 4), u16_at(self.bytes, 6))
     }
 
     /// The CRC-32 stored at the end of the image.
+    ///
+    /// ```
+    /// use inkling_core::image::checksum::crc32;
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.checksum(), crc32(&image[..image.len() - 4]));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn checksum(&self) -> u32 {
         u32_at(self.bytes, self.bytes.len() - CRC_LEN)
     }
@@ -352,11 +389,27 @@ impl<'a> Model<'a> {
     }
 
     /// `byte_embed` [256, D].
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// let embed = model.byte_embed();
+    /// assert_eq!((embed.rows(), embed.cols()), (256, model.dims().d_model));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn byte_embed(&self) -> QuantMatrix<'a> {
         self.matrix(0)
     }
 
     /// The output head [256, D]: `head`, or `byte_embed` when tied.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert!(model.dims().tied_head); // so the head is byte_embed's very bytes
+    /// assert_eq!(model.head().weights().as_ptr(), model.byte_embed().weights().as_ptr());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn head(&self) -> QuantMatrix<'a> {
         if self.dims.tied_head {
             self.byte_embed()
@@ -366,11 +419,29 @@ impl<'a> Model<'a> {
     }
 
     /// `final_norm` `[D]`.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.final_norm().len(), model.dims().d_model);
+    /// assert!(model.final_norm().iter().all(|g| g == 1.0)); // the tiny model's gains
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn final_norm(&self) -> Floats<'a> {
         self.floats(1 + format::TENSORS_PER_BLOCK * self.dims.blocks)
     }
 
     /// The int8 matrix of `role` in block `block` (empty for float roles).
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// let select = model.block_matrix(0, Role::Select);
+    /// assert_eq!((select.rows(), select.cols()), model.dims().shape(Role::Select));
+    /// assert_eq!(model.block_matrix(0, Role::Decay).rows(), 0); // a float role
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn block_matrix(&self, block: usize, role: Role) -> QuantMatrix<'a> {
         match Role::BLOCK_ROLES.iter().position(|&r| r == role) {
             Some(slot) if role.is_quantised() => self.matrix(Dims::block_index(block, slot)),
@@ -379,6 +450,16 @@ impl<'a> Model<'a> {
     }
 
     /// The float tensor of `role` in block `block` (empty for int8 roles).
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// let decay = model.block_floats(0, Role::Decay); // stored as A = -exp(decay)
+    /// assert!(decay.len() == 16 * 4 && decay.iter().all(|a| a < 0.0));
+    /// assert!(model.block_floats(0, Role::Expand).is_empty()); // an int8 role
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn block_floats(&self, block: usize, role: Role) -> Floats<'a> {
         match Role::BLOCK_ROLES.iter().position(|&r| r == role) {
             Some(slot) if !role.is_quantised() => self.floats(Dims::block_index(block, slot)),

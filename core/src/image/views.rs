@@ -28,6 +28,12 @@ pub enum Floats<'a> {
 
 impl<'a> Floats<'a> {
     /// Number of values.
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// assert_eq!(Floats::F32Le(&[0; 8]).len(), 2);
+    /// assert_eq!(Floats::F16Le(&[0; 8]).len(), 4);
+    /// ```
     pub fn len(&self) -> usize {
         match self {
             Floats::F32Le(b) => b.len() / 4,
@@ -37,11 +43,24 @@ impl<'a> Floats<'a> {
     }
 
     /// Whether there are no values.
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// assert!(Floats::Native(&[]).is_empty());
+    /// assert!(!Floats::F32Le(&1.0f32.to_le_bytes()).is_empty());
+    /// ```
     pub fn is_empty(&self) -> bool {
         self.len() == 0
     }
 
     /// Value `i`, or 0.0 past the end.
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// let v = Floats::F16Le(&[0x00, 0x3C, 0x00, 0xC0]); // binary16 1.0 and -2.0
+    /// assert_eq!((v.get(0), v.get(1)), (1.0, -2.0));
+    /// assert_eq!(v.get(2), 0.0); // past the end
+    /// ```
     pub fn get(&self, i: usize) -> f32 {
         match self {
             Floats::F32Le(b) => b
@@ -77,6 +96,13 @@ impl<'a> Floats<'a> {
     }
 
     /// Values `start..start + len` as a view (empty where out of range).
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// let v = Floats::Native(&[1.0, 2.0, 3.0]);
+    /// assert_eq!(v.slice(1, 2).get(0), 2.0);
+    /// assert!(v.slice(2, 5).is_empty());
+    /// ```
     pub fn slice(&self, start: usize, len: usize) -> Floats<'a> {
         match *self {
             Floats::F32Le(b) => Floats::F32Le(b.get(4 * start..4 * (start + len)).unwrap_or(&[])),
@@ -86,6 +112,13 @@ impl<'a> Floats<'a> {
     }
 
     /// The values in order.
+    ///
+    /// ```
+    /// use inkling_core::image::views::Floats;
+    /// let bytes = [0x00, 0x3C, 0x00, 0xC0]; // binary16 1.0 and -2.0
+    /// let values: Vec<f32> = Floats::F16Le(&bytes).iter().collect();
+    /// assert_eq!(values, [1.0, -2.0]);
+    /// ```
     pub fn iter(&self) -> FloatIter<'a> {
         match *self {
             Floats::F32Le(b) => FloatIter::F32(b.as_chunks::<4>().0.iter()),
@@ -96,6 +129,12 @@ impl<'a> Floats<'a> {
 }
 
 /// Iterator over [`Floats`].
+///
+/// ```
+/// use inkling_core::image::views::{FloatIter, Floats};
+/// let mut it: FloatIter<'_> = Floats::Native(&[0.5]).iter();
+/// assert_eq!((it.next(), it.next()), (Some(0.5), None));
+/// ```
 #[derive(Debug, Clone)]
 pub enum FloatIter<'a> {
     /// Over binary32 bytes.
@@ -140,6 +179,13 @@ pub struct QuantMatrix<'a> {
 impl<'a> QuantMatrix<'a> {
     /// A view over `rows × cols` int8 weights (as bytes) and their scales. `group` is the
     /// number of columns per scale, 0 for one scale per row.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// // one row of four columns, a scale per two columns
+    /// let m = QuantMatrix::new(&[2, 2, 2, 2], Floats::Native(&[0.5, 4.0]), 1, 4, 2);
+    /// assert_eq!((m.weight(0, 1), m.weight(0, 2)), (1.0, 8.0));
+    /// ```
     pub fn new(
         weights: &'a [u8],
         scales: Floats<'a>,
@@ -157,21 +203,46 @@ impl<'a> QuantMatrix<'a> {
     }
 
     /// Rows.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let m = QuantMatrix::new(&[0; 6], Floats::Native(&[1.0; 2]), 2, 3, 0);
+    /// assert_eq!(m.rows(), 2);
+    /// ```
     pub fn rows(&self) -> usize {
         self.rows
     }
 
     /// Columns.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let m = QuantMatrix::new(&[0; 6], Floats::Native(&[1.0; 2]), 2, 3, 0);
+    /// assert_eq!(m.cols(), 3);
+    /// ```
     pub fn cols(&self) -> usize {
         self.cols
     }
 
     /// Columns per scale (0: one per row).
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let m = QuantMatrix::new(&[0; 8], Floats::Native(&[1.0; 4]), 2, 4, 2);
+    /// assert_eq!(m.group(), 2);
+    /// ```
     pub fn group(&self) -> usize {
         self.group
     }
 
     /// The int8 weights of row `r` as stored bytes (empty past the end).
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let m = QuantMatrix::new(&[1, 2, 3, 4], Floats::Native(&[1.0; 2]), 2, 2, 0);
+    /// assert_eq!(m.row(1), &[3, 4]);
+    /// assert!(m.row(2).is_empty());
+    /// ```
     #[inline]
     pub fn row(&self, r: usize) -> &'a [u8] {
         self.weights
@@ -180,16 +251,39 @@ impl<'a> QuantMatrix<'a> {
     }
 
     /// All scales, row-major (`ceil(cols / group)` per row, one per row for group 0).
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// let embed = model.byte_embed();
+    /// assert_eq!(embed.scales().len(), 256); // group 0: one per row
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn scales(&self) -> Floats<'a> {
         self.scales
     }
 
     /// All weights as stored bytes, row-major.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// let embed = model.byte_embed();
+    /// assert_eq!(embed.weights().len(), embed.rows() * embed.cols());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
     pub fn weights(&self) -> &'a [u8] {
         self.weights
     }
 
     /// The scales of row `r`.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let scales = [1.0, 2.0, 3.0, 4.0];
+    /// let m = QuantMatrix::new(&[0; 8], Floats::Native(&scales), 2, 4, 2);
+    /// assert_eq!(m.row_scales(1).iter().collect::<Vec<_>>(), [3.0, 4.0]);
+    /// ```
     #[inline]
     pub fn row_scales(&self, r: usize) -> Floats<'a> {
         let per_row = if self.group == 0 {
@@ -201,6 +295,13 @@ impl<'a> QuantMatrix<'a> {
     }
 
     /// The dequantised weight at `(r, c)`, 0.0 outside the matrix.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{Floats, QuantMatrix};
+    /// let m = QuantMatrix::new(&[0x80, 0x7F], Floats::Native(&[0.5]), 1, 2, 0); // int8 -128, 127
+    /// assert_eq!((m.weight(0, 0), m.weight(0, 1)), (-64.0, 63.5));
+    /// assert_eq!(m.weight(1, 0), 0.0); // outside
+    /// ```
     pub fn weight(&self, r: usize, c: usize) -> f32 {
         let w = self.row(r).get(c).map_or(0, |&b| b as i8);
         let s = self
@@ -213,6 +314,14 @@ impl<'a> QuantMatrix<'a> {
 /// Read access to the values of a float tensor, a run at a time: implemented by plain
 /// `&[f32]` and by [`Floats`], so a hot loop is written once and compiled for both (the
 /// slice version is the one that vectorises).
+///
+/// ```
+/// use inkling_core::image::views::{FloatRun, Floats};
+/// fn total(v: impl FloatRun) -> f32 { v.run(0, 3).sum() }
+/// let x = [1.0f32, 2.0, 3.0];
+/// assert_eq!(total(&x[..]), total(Floats::Native(&x)));
+/// assert_eq!((&x[..]).at(5), 0.0);
+/// ```
 pub trait FloatRun: Copy {
     /// Values `start..start + len` (fewer where out of range).
     fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32>;

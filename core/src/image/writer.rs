@@ -12,6 +12,13 @@ use super::model::Model;
 use crate::error::Error;
 
 /// Values of one float tensor to write.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_tensors, format::Role, writer::*};
+/// let (_, tensors) = tiny_tensors(); // the tiny model keeps its convolution in binary16
+/// let conv = tensors.payload(Role::Conv, 0);
+/// assert!(matches!(conv, Payload::Float(FloatPayload::F16(v)) if v.len() == 16 * 4));
+/// ```
 #[derive(Debug, Clone, Copy)]
 pub enum FloatPayload<'a> {
     /// Stored as binary32.
@@ -21,6 +28,13 @@ pub enum FloatPayload<'a> {
 }
 
 /// The payload of one tensor to write.
+///
+/// ```
+/// use inkling_core::image::{example::tiny_tensors, format::Role, writer::*};
+/// let (_, tensors) = tiny_tensors();
+/// assert!(matches!(tensors.payload(Role::Norm, 0), Payload::Float(_)));
+/// assert!(matches!(tensors.payload(Role::Select, 0), Payload::Int8 { .. }));
+/// ```
 #[derive(Debug, Clone, Copy)]
 pub enum Payload<'a> {
     /// A float tensor.
@@ -67,12 +81,39 @@ impl FloatPayload<'_> {
 
 /// The tensors of a model, in the canonical order of [`format`]: `byte_embed`, the ten
 /// roles of each block, `final_norm`, and `head` when untied.
+///
+/// ```
+/// use inkling_core::image::{example::*, format::Role, writer::*};
+/// // The tiny model with its skip weights set to zero.
+/// struct NoSkip(TinyTensors);
+/// impl TensorSource for NoSkip {
+///     fn payload(&self, role: Role, block: usize) -> Payload<'_> {
+///         match role {
+///             Role::Skip => Payload::Float(FloatPayload::F32(&[0.0; 16])),
+///             _ => self.0.payload(role, block),
+///         }
+///     }
+/// }
+/// let (dims, tensors) = tiny_tensors();
+/// let mut out = [0u8; TINY_IMAGE_LEN];
+/// assert_eq!(write_image(&dims, &NoSkip(tensors), &mut out)?, TINY_IMAGE_LEN);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub trait TensorSource {
     /// The payload of `role` in `block` (block is 0 for whole-model roles).
     fn payload(&self, role: Role, block: usize) -> Payload<'_>;
 }
 
 /// The canonical `(role, block)` sequence for these dimensions.
+///
+/// ```
+/// use inkling_core::image::writer::canonical_order;
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = inkling_core::Model::from_bytes(&image)?;
+/// let table = model.tensors().map(|e| (e.role, e.block as usize));
+/// assert!(table.eq(canonical_order(model.dims())));
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
 pub fn canonical_order(dims: &Dims) -> impl Iterator<Item = (Role, usize)> + '_ {
     core::iter::once((Role::ByteEmbed, 0))
         .chain((0..dims.blocks).flat_map(|b| Role::BLOCK_ROLES.into_iter().map(move |r| (r, b))))
@@ -88,6 +129,13 @@ fn payload_lens(p: &Payload<'_>) -> (usize, usize) {
 }
 
 /// Bytes the image of these tensors takes.
+///
+/// ```
+/// use inkling_core::image::{example::*, format::ALIGN, writer::image_len};
+/// let (dims, tensors) = tiny_tensors();
+/// assert_eq!(image_len(&dims, &tensors), TINY_IMAGE_LEN);
+/// assert_eq!(TINY_IMAGE_LEN % ALIGN, 4); // padded payloads, then the 4-byte CRC
+/// ```
 pub fn image_len(dims: &Dims, tensors: &dyn TensorSource) -> usize {
     let mut at = align_up(HEADER_LEN + dims.tensor_count() * ENTRY_LEN).unwrap_or(usize::MAX);
     for (role, block) in canonical_order(dims) {

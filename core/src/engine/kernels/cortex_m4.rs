@@ -18,6 +18,15 @@ use core::arch::asm;
 /// Most columns the kernel takes (the stack copy of the activations is twice this in
 /// bytes); a wider matrix goes to the portable kernel. It covers every matrix of models up
 /// to 512 inner channels.
+///
+/// ```ignore
+/// // Runs on the Cortex-M4 target only (this module is built for 32-bit Arm alone).
+/// use inkling_core::engine::kernels::cortex_m4::{row_sums, MAX_COLS};
+/// let (w, act, mut sums) = ([0u8; 4 * (MAX_COLS + 4)], [0i16; MAX_COLS + 4], [0.0f32; 4]);
+/// assert!(row_sums(&w, MAX_COLS, &act, MAX_COLS / 4, 1, &mut sums));
+/// // One quad wider is refused: such a matrix goes to the portable kernel.
+/// assert!(!row_sums(&w, MAX_COLS + 4, &act, MAX_COLS / 4 + 1, 1, &mut sums));
+/// ```
 pub const MAX_COLS: usize = 512;
 
 /// One step of four columns for the four rows: a doubleword of reordered activations
@@ -63,6 +72,15 @@ macro_rules! row {
 /// (row-major, `stride` bytes a row), one per row into `sums` as the bit patterns of the
 /// i32 values (`f32::to_bits() as i32` reads them back: the caller rescales in place), or
 /// `false` (and nothing written) when the sizes do not fit.
+///
+/// ```ignore
+/// // Runs on the Cortex-M4 target only; `dot_i8_i16` gives the same sum for each row anywhere.
+/// use inkling_core::engine::{kernels::cortex_m4::row_sums, matvec::dot_i8_i16};
+/// let w = [1u8, 2, 3, 4, 0xFF, 0xFE, 0xFD, 0xFC, 0, 0, 0, 0, 5, 6, 7, 8]; // 4 rows × 4 columns
+/// let (act, mut sums) = ([10i16, -20, 30, -40], [0.0f32; 4]);
+/// assert!(row_sums(&w, 4, &act, 1, 1, &mut sums));
+/// assert_eq!(sums[1].to_bits() as i32, dot_i8_i16(&w[4..8], &act));
+/// ```
 pub fn row_sums(
     weights: &[u8],
     stride: usize,
