@@ -38,6 +38,13 @@ enum Command {
 }
 
 fn main() {
+    // Output piped into a program that stops reading early (`| head`) ends this process
+    // quietly, as for any Unix command, instead of a panic on the failed write.
+    // SAFETY: called first in main, before any thread exists; it sets one signal disposition.
+    #[cfg(unix)]
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = Cli::parse();
     let result = match &cli.command {
         Command::Train(a) => commands::train::run(a).map_err(Into::into),
