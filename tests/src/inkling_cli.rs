@@ -53,6 +53,19 @@ where
     })
 }
 
+/// `inkling suggest IMAGE --text TEXT --count COUNT --json`.
+pub fn suggest_json(image: &Path, text: &str, count: usize) -> Value {
+    run_json([
+        "suggest".as_ref(),
+        image.as_os_str(),
+        "--text".as_ref(),
+        text.as_ref(),
+        "--count".as_ref(),
+        count.to_string().as_ref(),
+        "--json".as_ref(),
+    ])
+}
+
 /// `inkling next MODEL --text TEXT --json --all-positions [EXTRA...]`; MODEL is a checkpoint
 /// (float engine) or an image (int8 engine).
 pub fn next_all_positions(model: &Path, text: &str, extra: &[&OsStr]) -> PositionLogits {

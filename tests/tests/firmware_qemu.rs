@@ -12,7 +12,7 @@ use std::sync::OnceLock;
 
 use inkling_core::session::{SearchOptions, Session};
 use inkling_core::{Model, Scratch};
-use serde_json::Value;
+use inkling_tests::inkling_cli::{run_json, suggest_json};
 
 /// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
 const SUGGESTIONS: usize = 3;
@@ -236,38 +236,6 @@ fn suggestions_match_the_host_session_bit_for_bit() {
     );
 }
 
-/// The `inkling` binary next to the test executable (`target/<profile>/deps/../inkling`).
-fn inkling_binary() -> PathBuf {
-    let exe = std::env::current_exe().expect("the test executable's path");
-    exe.parent()
-        .expect("the test executable's folder")
-        .join("..")
-        .join(format!("inkling{}", std::env::consts::EXE_SUFFIX))
-}
-
-fn inkling_json(args: &[&std::ffi::OsStr]) -> Value {
-    let binary = inkling_binary();
-    let output = Command::new(&binary)
-        .args(args)
-        .output()
-        .unwrap_or_else(|e| panic!("could not start {}: {e}", binary.display()));
-    assert!(
-        output.status.success(),
-        "inkling {args:?} failed ({}): {}",
-        output.status,
-        String::from_utf8_lossy(&output.stderr)
-    );
-    serde_json::from_slice(&output.stdout)
-        .unwrap_or_else(|e| panic!("inkling {args:?} printed no JSON object: {e}"))
-}
-
-fn has_subcommand(name: &str) -> bool {
-    Command::new(inkling_binary())
-        .args([name, "--help"])
-        .output()
-        .is_ok_and(|o| o.status.success())
-}
-
 /// The keystrokes whose text can travel as a command-line argument (non-empty UTF-8).
 fn texts(run: &FirmwareRun) -> Vec<(&Keystroke, &str)> {
     run.keystrokes
@@ -279,46 +247,28 @@ fn texts(run: &FirmwareRun) -> Vec<(&Keystroke, &str)> {
 
 #[test]
 fn suggestions_match_the_inkling_command() {
-    assert!(
-        inkling_binary().is_file(),
-        "the inkling binary is missing at {}: build it first with \
-         `cargo build --release -p inkling-host` (same target dir as the tests)",
-        inkling_binary().display()
-    );
     let run = firmware_run();
     let image = image_path();
-    if has_subcommand("suggest") {
-        for (k, text) in texts(run) {
-            let json = inkling_json(&[
-                "suggest".as_ref(),
-                image.as_os_str(),
-                "--text".as_ref(),
-                text.as_ref(),
-                "--count".as_ref(),
-                "3".as_ref(),
-                "--json".as_ref(),
-            ]);
-            let list = json["suggestions"]
-                .as_array()
-                .unwrap_or_else(|| panic!("inkling suggest: no \"suggestions\" in {json}"));
-            let host: Vec<(Vec<u8>, u32)> = list
-                .iter()
-                .map(|s| {
-                    let hex = s["text_hex"].as_str().expect("a \"text_hex\" string");
-                    let t: Vec<u8> = (0..hex.len())
-                        .step_by(2)
-                        .map(|i| u8::from_str_radix(&hex[i..i + 2], 16).expect("hex bytes"))
-                        .collect();
-                    let bits = s["logprob_bits"]
-                        .as_str()
-                        .expect("a \"logprob_bits\" string");
-                    (t, parse_bits(bits, "inkling suggest"))
-                })
-                .collect();
-            assert_eq!(k.suggestions, host, "text {text:?}: {}", show(k));
-        }
-    } else {
-        eprintln!("inkling has no `suggest` yet: checking `inkling next` against the host session");
+    for (k, text) in texts(run) {
+        let json = suggest_json(&image, text, SUGGESTIONS);
+        let list = json["suggestions"]
+            .as_array()
+            .unwrap_or_else(|| panic!("inkling suggest: no \"suggestions\" in {json}"));
+        let host: Vec<(Vec<u8>, u32)> = list
+            .iter()
+            .map(|s| {
+                let hex = s["text_hex"].as_str().expect("a \"text_hex\" string");
+                let t: Vec<u8> = (0..hex.len())
+                    .step_by(2)
+                    .map(|i| u8::from_str_radix(&hex[i..i + 2], 16).expect("hex bytes"))
+                    .collect();
+                let bits = s["logprob_bits"]
+                    .as_str()
+                    .expect("a \"logprob_bits\" string");
+                (t, parse_bits(bits, "inkling suggest"))
+            })
+            .collect();
+        assert_eq!(k.suggestions, host, "text {text:?}: {}", show(k));
     }
     // `inkling next` on the same text gives the logits the session suggested from.
     let bytes = std::fs::read(&image).expect("the image");
@@ -335,7 +285,7 @@ fn suggestions_match_the_inkling_command() {
         session.push_bytes(text.as_bytes()).expect("push");
         // The session starts from its prime byte, a line feed: so does the command's text.
         let primed = format!("\n{text}");
-        let json = inkling_json(&[
+        let json = run_json([
             "next".as_ref(),
             image.as_os_str(),
             "--text".as_ref(),

@@ -7,9 +7,8 @@ use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
 use portable_pty::{native_pty_system, Child, CommandBuilder, MasterPty, PtySize};
-use serde_json::Value;
 
-use inkling_tests::inkling_cli::{inkling_binary, random_image, run_json};
+use inkling_tests::inkling_cli::{inkling_binary, random_image, suggest_json};
 
 /// How long the screen may take to show a key's effect (a search on a tiny model takes
 /// milliseconds; the margin is for a loaded machine).
@@ -163,15 +162,7 @@ impl Screen {
 
 /// The texts `inkling suggest` gives for `text` (3 suggestions), as the screen shows them.
 fn suggest(image: &Path, text: &str) -> Vec<String> {
-    let json: Value = run_json([
-        "suggest".as_ref(),
-        image.as_os_str(),
-        "--text".as_ref(),
-        text.as_ref(),
-        "--count".as_ref(),
-        "3".as_ref(),
-        "--json".as_ref(),
-    ]);
+    let json = suggest_json(image, text, 3);
     json["suggestions"]
         .as_array()
         .expect("suggestions list")
