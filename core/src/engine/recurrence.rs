@@ -23,7 +23,7 @@
 //! so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
 use super::buffers::{check_len, Scratch};
-use super::nonlinear::{exp, rms_norm, silu, softplus};
+use super::nonlinear::{exp2_nonpositive, rms_norm, silu, softplus};
 use super::weights::Weights;
 use crate::error::Error;
 use crate::image::dims::Dims;
@@ -158,6 +158,49 @@ fn run_pass<W: Weights + ?Sized>(
     }
 }
 
+/// The float tensors of one block, as one kind of [`FloatRun`] for all of them.
+#[derive(Clone, Copy)]
+struct BlockFloats<F: FloatRun> {
+    norm: F,
+    conv: F,
+    conv_bias: F,
+    step: F,
+    step_bias: F,
+    decay: F,
+    skip: F,
+}
+
+impl<'a> BlockFloats<Floats<'a>> {
+    /// The float tensors of block `l`.
+    fn of<W: Weights + ?Sized>(weights: &'a W, l: usize) -> Self {
+        let f = |role| weights.floats(l, role);
+        BlockFloats {
+            norm: f(Role::Norm),
+            conv: f(Role::Conv),
+            conv_bias: f(Role::ConvBias),
+            step: f(Role::Step),
+            step_bias: f(Role::StepBias),
+            decay: f(Role::Decay),
+            skip: f(Role::Skip),
+        }
+    }
+
+    /// The same tensors as plain `&[f32]` when every one is stored that way (aligned
+    /// little-endian f32, as in every image the converter writes): the loops over them then
+    /// have no per-value decoding.
+    fn as_slices(&self) -> Option<BlockFloats<&'a [f32]>> {
+        Some(BlockFloats {
+            norm: self.norm.as_f32s()?,
+            conv: self.conv.as_f32s()?,
+            conv_bias: self.conv_bias.as_f32s()?,
+            step: self.step.as_f32s()?,
+            step_bias: self.step_bias.as_f32s()?,
+            decay: self.decay.as_f32s()?,
+            skip: self.skip.as_f32s()?,
+        })
+    }
+}
+
 /// Block `l` over the `t` bytes of a pass.
 fn run_block<W: Weights + ?Sized>(
     weights: &W,
@@ -168,74 +211,89 @@ fn run_block<W: Weights + ?Sized>(
     t: usize,
     act: &mut [i16],
 ) {
-    let (i_n, n, k, r, dm) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank, d.d_model);
-    let (window, ssm) = carve(block_state, i_n * (k - 1));
-    let norm = weights.floats(l, Role::Norm);
-    for (u_t, h_t) in a.u.chunks_exact(dm).zip(a.h.chunks_exact_mut(dm)) {
-        rms_norm(u_t, norm, d.norm_eps, h_t);
+    let floats = BlockFloats::of(weights, l);
+    let block = Block { weights, d, l, t };
+    match floats.as_slices() {
+        Some(slices) => block.run(&slices, block_state, a, act),
+        None => block.run(&floats, block_state, a, act),
     }
-    weights.matvec_chunk(l, Role::Expand, a.h, t, act, a.xz);
+}
 
-    // Causal depthwise convolution, byte after byte; x goes to its own contiguous area.
-    let conv = weights.floats(l, Role::Conv);
-    let conv_bias = weights.floats(l, Role::ConvBias);
-    for (xz_t, x_t) in a.xz.chunks_exact(2 * i_n).zip(a.xy.chunks_exact_mut(i_n)) {
-        x_t.copy_from_slice(xz_t.get(..i_n).unwrap_or(&[]));
-        match conv.as_f32s() {
-            Some(taps) => convolve(x_t, window, taps, conv_bias, k),
-            None => convolve(x_t, window, conv, conv_bias, k),
+/// What every part of block `l`'s pass over `t` bytes needs.
+struct Block<'w, W: Weights + ?Sized> {
+    weights: &'w W,
+    d: &'w Dims,
+    l: usize,
+    t: usize,
+}
+
+impl<W: Weights + ?Sized> Block<'_, W> {
+    fn run<F: FloatRun>(
+        &self,
+        f: &BlockFloats<F>,
+        block_state: &mut [f32],
+        a: &mut PassAreas<'_>,
+        act: &mut [i16],
+    ) {
+        let (d, l, t) = (self.d, self.l, self.t);
+        let (i_n, n, k, r, dm) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank, d.d_model);
+        let (window, ssm) = carve(block_state, i_n * (k - 1));
+        for (u_t, h_t) in a.u.chunks_exact(dm).zip(a.h.chunks_exact_mut(dm)) {
+            rms_norm(u_t, f.norm, d.norm_eps, h_t);
         }
-    }
+        self.weights
+            .matvec_chunk(l, Role::Expand, a.h, t, act, a.xz);
 
-    // Input-dependent step size, input and output projections.
-    weights.matvec_chunk(l, Role::Select, a.xy, t, act, a.rbc);
-    let step = weights.floats(l, Role::Step);
-    let step_bias = weights.floats(l, Role::StepBias);
-    for (rbc_t, dt_t) in a
-        .rbc
-        .chunks_exact(r + 2 * n)
-        .zip(a.dt.chunks_exact_mut(i_n))
-    {
-        let rank = rbc_t.get(..r).unwrap_or(&[]);
-        for (i, dti) in dt_t.iter_mut().enumerate() {
-            let mut acc = 0.0f32;
-            for (w, &ri) in step.slice(i * r, r).iter().zip(rank) {
-                acc += w * ri;
+        // Causal depthwise convolution, byte after byte; x goes to its own contiguous area.
+        for (xz_t, x_t) in a.xz.chunks_exact(2 * i_n).zip(a.xy.chunks_exact_mut(i_n)) {
+            x_t.copy_from_slice(xz_t.get(..i_n).unwrap_or(&[]));
+            convolve(x_t, window, f.conv, f.conv_bias, k);
+        }
+        // The activations, each a loop of its own over whole vectors (so that it vectorises):
+        // x after the convolution, and the gate silu(z) in place of z.
+        a.xy.iter_mut().for_each(|v| *v = silu(*v));
+        for xz_t in a.xz.chunks_exact_mut(2 * i_n) {
+            let z = xz_t.get_mut(i_n..).unwrap_or(&mut []);
+            z.iter_mut().for_each(|v| *v = silu(*v));
+        }
+
+        // Input-dependent step size, input and output projections.
+        self.weights
+            .matvec_chunk(l, Role::Select, a.xy, t, act, a.rbc);
+        for (rbc_t, dt_t) in a
+            .rbc
+            .chunks_exact(r + 2 * n)
+            .zip(a.dt.chunks_exact_mut(i_n))
+        {
+            let rank = rbc_t.get(..r).unwrap_or(&[]);
+            for (i, dti) in dt_t.iter_mut().enumerate() {
+                let mut acc = 0.0f32;
+                for (w, &ri) in f.step.run(i * r, r).zip(rank) {
+                    acc += w * ri;
+                }
+                *dti = acc + f.step_bias.at(i);
             }
-            *dti = softplus(acc + step_bias.get(i));
         }
-    }
+        a.dt.iter_mut().for_each(|v| *v = softplus(*v));
 
-    // Selective scan, byte after byte; y replaces x in place.
-    let decay = weights.floats(l, Role::Decay);
-    let skip = weights.floats(l, Role::Skip);
-    match decay.as_f32s() {
-        Some(rates) => scan_pass(
-            &ScanWeights {
-                decay: rates,
-                skip,
-                n,
-            },
-            a,
-            d,
-            ssm,
-        ),
-        None => scan_pass(&ScanWeights { decay, skip, n }, a, d, ssm),
-    }
+        // Selective scan, byte after byte; y replaces x in place.
+        let scan = ScanWeights {
+            decay: f.decay,
+            skip: f.skip,
+            n,
+        };
+        scan_pass(&scan, a, d, ssm);
 
-    weights.matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
-    for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
-        *ui += hi;
+        self.weights
+            .matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
+        for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
+            *ui += hi;
+        }
     }
 }
 
 /// The selective scan over the `t` bytes of a pass.
-fn scan_pass<D: FloatRun>(
-    scan: &ScanWeights<'_, D>,
-    a: &mut PassAreas<'_>,
-    d: &Dims,
-    ssm: &mut [f32],
-) {
+fn scan_pass<F: FloatRun>(scan: &ScanWeights<F>, a: &mut PassAreas<'_>, d: &Dims, ssm: &mut [f32]) {
     let (i_n, n, r) = (d.d_inner, d.d_state, d.dt_rank);
     for (((xy_t, dt_t), rbc_t), xz_t) in
         a.xy.chunks_exact_mut(i_n)
@@ -245,63 +303,97 @@ fn scan_pass<D: FloatRun>(
     {
         let bc = rbc_t.get(r..).unwrap_or(&[]);
         let (b, c) = bc.split_at(n.min(bc.len()));
-        let z = xz_t.get(i_n..).unwrap_or(&[]);
-        scan.step(ssm, xy_t, dt_t, b, c, z);
+        let gate = xz_t.get(i_n..).unwrap_or(&[]);
+        scan.step(ssm, xy_t, dt_t, b, c, gate);
     }
 }
 
-/// One byte of the causal depthwise convolution: `x[i] = silu(bias[i] + Σ_k conv[i,k] ·
-/// (window[i] then x[i]))`, and the window moves on by one.
-fn convolve<C: FloatRun>(x: &mut [f32], window: &mut [f32], conv: C, bias: Floats<'_>, k: usize) {
+/// One byte of the causal depthwise convolution, before its SiLU: `x[i] = bias[i] +
+/// Σ_k conv[i,k] · (window[i] then x[i])`, and the window moves on by one.
+fn convolve<F: FloatRun>(x: &mut [f32], window: &mut [f32], conv: F, bias: F, k: usize) {
     for (i, xi) in x.iter_mut().enumerate() {
         let past = window
             .get_mut(i * (k - 1)..(i + 1) * (k - 1))
             .unwrap_or(&mut []);
-        let mut acc = bias.get(i);
+        let mut acc = bias.at(i);
         for (tap, &p) in conv.run(i * k, k - 1).zip(past.iter()) {
             acc += tap * p;
         }
         acc += conv.at(i * k + k - 1) * *xi;
-        if let Some(last) = past.len().checked_sub(1) {
-            past.copy_within(1.., 0);
-            if let Some(newest) = past.get_mut(last) {
-                *newest = *xi;
-            }
+        // Each value takes its newer neighbour's and the newest is x: a carry from the new
+        // end, which the compiler keeps in registers (a shifting copy becomes a memmove call).
+        let mut carry = *xi;
+        for p in past.iter_mut().rev() {
+            carry = core::mem::replace(p, carry);
         }
-        *xi = silu(acc);
+        *xi = acc;
     }
 }
 
 /// The float weights of the selective scan of one block (`decay` holds `A`).
-struct ScanWeights<'a, D: FloatRun> {
-    decay: D,
-    skip: Floats<'a>,
+struct ScanWeights<F: FloatRun> {
+    decay: F,
+    skip: F,
     n: usize,
 }
 
-impl<D: FloatRun> ScanWeights<'_, D> {
-    /// One byte of the scan (zero-order hold for A, Euler for B), output and gate:
-    /// `xy` holds x on entry and y on return.
-    fn step(&self, ssm: &mut [f32], xy: &mut [f32], dt: &[f32], b: &[f32], c: &[f32], z: &[f32]) {
+impl<F: FloatRun> ScanWeights<F> {
+    /// One byte of the scan (zero-order hold for A, Euler for B), output and gate (`gate`
+    /// holds silu(z)): `xy` holds x on entry and y on return.
+    fn step(
+        &self,
+        ssm: &mut [f32],
+        xy: &mut [f32],
+        dt: &[f32],
+        b: &[f32],
+        c: &[f32],
+        gate: &[f32],
+    ) {
         let n = self.n;
-        for (i, ((yi, s), (&dti, &zi))) in xy
+        for (i, ((yi, s), (&dti, &gate))) in xy
             .iter_mut()
             .zip(ssm.chunks_exact_mut(n))
-            .zip(dt.iter().zip(z))
+            .zip(dt.iter().zip(gate))
             .enumerate()
         {
             let xi = *yi;
             let dx = dti * xi;
-            // The update has no dependence between states (it vectorises); the read-out
-            // sums in state order, so every target adds in the same order.
-            for ((sn, a), &bn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b) {
-                *sn = exp(dti * a) * *sn + dx * bn;
-            }
-            let mut acc = 0.0f32;
-            for (&sn, &cn) in s.iter().zip(c) {
-                acc += sn * cn;
-            }
-            *yi = (acc + self.skip.get(i) * xi) * silu(zi);
+            // exp(Δ·A) = 2^(Δ·log2(e)·A), with Δ·A ≤ 0: one product per state, not two.
+            let dt_log2 = dti * core::f32::consts::LOG2_E;
+            let acc = update_and_read(s, self.decay.run(i * n, n), dt_log2, dx, b, c);
+            *yi = (acc + self.skip.at(i) * xi) * gate;
         }
     }
+}
+
+/// The state update `s[n] = 2^(dt_log2 · a[n]) · s[n] + dx · b[n]` of one channel, and its
+/// read-out `Σ_n s[n] · c[n]` summed in state order. The same operations in the same order on
+/// every target, in two loop shapes: on the workstation the update is a loop of its own,
+/// with no dependence between states, which the compiler vectorises; a Cortex-M4's FPU has
+/// no vectors, and one fused loop saves reloading each state for the read-out.
+#[inline(always)]
+fn update_and_read(
+    s: &mut [f32],
+    a: impl Iterator<Item = f32>,
+    dt_log2: f32,
+    dx: f32,
+    b: &[f32],
+    c: &[f32],
+) -> f32 {
+    let mut acc = 0.0f32;
+    #[cfg(target_arch = "arm")]
+    for (((sn, a), &bn), &cn) in s.iter_mut().zip(a).zip(b).zip(c) {
+        *sn = exp2_nonpositive(dt_log2 * a) * *sn + dx * bn;
+        acc += *sn * cn;
+    }
+    #[cfg(not(target_arch = "arm"))]
+    {
+        for ((sn, a), &bn) in s.iter_mut().zip(a).zip(b) {
+            *sn = exp2_nonpositive(dt_log2 * a) * *sn + dx * bn;
+        }
+        for (&sn, &cn) in s.iter().zip(c) {
+            acc += sn * cn;
+        }
+    }
+    acc
 }
