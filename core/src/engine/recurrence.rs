@@ -340,6 +340,13 @@ struct ScanWeights<F: FloatRun> {
 impl<F: FloatRun> ScanWeights<F> {
     /// One byte of the scan (zero-order hold for A, Euler for B), output and gate (`gate`
     /// holds silu(z)): `xy` holds x on entry and y on return.
+    ///
+    /// Every target computes each value by the same operations in the same order (each
+    /// channel's read-out sums its states in order), in two loop shapes: a Cortex-M4's FPU
+    /// has no vectors, and one loop per channel saves reloading each state for the read-out;
+    /// on the workstation the update is a loop of its own, with no dependence between states
+    /// (it vectorises), and the read-out runs four channels side by side (four independent
+    /// sums instead of one chain of dependent additions).
     fn step(
         &self,
         ssm: &mut [f32],
@@ -350,50 +357,81 @@ impl<F: FloatRun> ScanWeights<F> {
         gate: &[f32],
     ) {
         let n = self.n;
+        #[cfg(target_arch = "arm")]
         for (i, ((yi, s), (&dti, &gate))) in xy
             .iter_mut()
             .zip(ssm.chunks_exact_mut(n))
             .zip(dt.iter().zip(gate))
             .enumerate()
         {
-            let xi = *yi;
-            let dx = dti * xi;
-            // exp(Δ·A) = 2^(Δ·log2(e)·A), with Δ·A ≤ 0: one product per state, not two.
-            let dt_log2 = dti * core::f32::consts::LOG2_E;
-            let acc = update_and_read(s, self.decay.run(i * n, n), dt_log2, dx, b, c);
-            *yi = (acc + self.skip.at(i) * xi) * gate;
+            let (dt_log2, dx) = (dti * core::f32::consts::LOG2_E, dti * *yi);
+            let mut acc = 0.0f32;
+            for (((sn, a), &bn), &cn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b).zip(c) {
+                *sn = decayed(*sn, a, dt_log2, dx, bn);
+                acc += *sn * cn;
+            }
+            *yi = self.output(i, acc, *yi, gate);
         }
+
+        #[cfg(not(target_arch = "arm"))]
+        {
+            for (i, ((s, &dti), &xi)) in ssm.chunks_exact_mut(n).zip(dt).zip(xy.iter()).enumerate()
+            {
+                let (dt_log2, dx) = (dti * core::f32::consts::LOG2_E, dti * xi);
+                for ((sn, a), &bn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b) {
+                    *sn = decayed(*sn, a, dt_log2, dx, bn);
+                }
+            }
+            let mut done = 0;
+            for ((y4, s4), g4) in xy
+                .chunks_exact_mut(4)
+                .zip(ssm.chunks_exact(4 * n))
+                .zip(gate.chunks_exact(4))
+            {
+                let mut rows = s4.chunks_exact(n);
+                let (Some(r0), Some(r1), Some(r2), Some(r3)) =
+                    (rows.next(), rows.next(), rows.next(), rows.next())
+                else {
+                    break;
+                };
+                let mut acc = [0.0f32; 4];
+                for ((((&s0, &s1), &s2), &s3), &cn) in r0.iter().zip(r1).zip(r2).zip(r3).zip(c) {
+                    acc[0] += s0 * cn;
+                    acc[1] += s1 * cn;
+                    acc[2] += s2 * cn;
+                    acc[3] += s3 * cn;
+                }
+                for ((y, &g), acc) in y4.iter_mut().zip(g4).zip(acc) {
+                    *y = self.output(done, acc, *y, g);
+                    done += 1;
+                }
+            }
+            // The channels after the last four.
+            for (i, ((yi, s), &g)) in xy
+                .iter_mut()
+                .zip(ssm.chunks_exact(n))
+                .zip(gate)
+                .enumerate()
+                .skip(done)
+            {
+                let mut acc = 0.0f32;
+                for (&sn, &cn) in s.iter().zip(c) {
+                    acc += sn * cn;
+                }
+                *yi = self.output(i, acc, *yi, g);
+            }
+        }
+    }
+
+    /// Channel `i`'s output from its read-out `acc`, input `x` and gate.
+    #[inline(always)]
+    fn output(&self, i: usize, acc: f32, x: f32, gate: f32) -> f32 {
+        (acc + self.skip.at(i) * x) * gate
     }
 }
 
-/// The state update `s[n] = 2^(dt_log2 · a[n]) · s[n] + dx · b[n]` of one channel, and its
-/// read-out `Σ_n s[n] · c[n]` summed in state order. The same operations in the same order on
-/// every target, in two loop shapes: on the workstation the update is a loop of its own,
-/// with no dependence between states, which the compiler vectorises; a Cortex-M4's FPU has
-/// no vectors, and one fused loop saves reloading each state for the read-out.
+/// One state's update: `2^(dt_log2 · a) · s + dx · b`.
 #[inline(always)]
-fn update_and_read(
-    s: &mut [f32],
-    a: impl Iterator<Item = f32>,
-    dt_log2: f32,
-    dx: f32,
-    b: &[f32],
-    c: &[f32],
-) -> f32 {
-    let mut acc = 0.0f32;
-    #[cfg(target_arch = "arm")]
-    for (((sn, a), &bn), &cn) in s.iter_mut().zip(a).zip(b).zip(c) {
-        *sn = exp2_nonpositive(dt_log2 * a) * *sn + dx * bn;
-        acc += *sn * cn;
-    }
-    #[cfg(not(target_arch = "arm"))]
-    {
-        for ((sn, a), &bn) in s.iter_mut().zip(a).zip(b) {
-            *sn = exp2_nonpositive(dt_log2 * a) * *sn + dx * bn;
-        }
-        for (&sn, &cn) in s.iter().zip(c) {
-            acc += sn * cn;
-        }
-    }
-    acc
+fn decayed(s: f32, a: f32, dt_log2: f32, dx: f32, b: f32) -> f32 {
+    exp2_nonpositive(dt_log2 * a) * s + dx * b
 }
