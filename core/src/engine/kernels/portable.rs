@@ -35,3 +35,36 @@ pub fn dot_i8_i16(row: &[u8], act: &[i16]) -> i32 {
     }
     sum
 }
+
+/// [`dot_i8_i16`] of four rows against the same activations, `[dot_i8_i16(rows[k], act)]`
+/// for k in 0..4: the interface of the workstation's four-row kernel, for the cores that
+/// have none.
+///
+/// ```
+/// use inkling_core::engine::kernels::portable::{dot4_i8_i16, dot_i8_i16};
+/// let w = [1u8, 2, 0xFF, 4, 5, 6, 7, 8];
+/// let rows = [&w[..2], &w[2..4], &w[4..6], &w[6..]];
+/// assert_eq!(dot4_i8_i16(rows, &[3, -1]), [1, -7, 9, 13]);
+/// assert_eq!(dot4_i8_i16(rows, &[3, -1])[2], dot_i8_i16(rows[2], &[3, -1]));
+/// ```
+#[inline]
+pub fn dot4_i8_i16(rows: [&[u8]; 4], act: &[i16]) -> [i32; 4] {
+    rows.map(|r| dot_i8_i16(r, act))
+}
+
+/// [`dot4_i8_i16`] of the same four rows against two activation vectors,
+/// `[dot4_i8_i16(rows, acts[0]), dot4_i8_i16(rows, acts[1])]`: the interface of the
+/// workstation's two-vector kernel, for the cores that have none.
+///
+/// ```
+/// use inkling_core::engine::kernels::portable::{dot4_i8_i16, dot4x2_i8_i16};
+/// let w = [1u8, 2, 0xFF, 4, 5, 6, 7, 8];
+/// let rows = [&w[..2], &w[2..4], &w[4..6], &w[6..]];
+/// let sums = dot4x2_i8_i16(rows, [&[3, -1], &[0, 2]]);
+/// assert_eq!(sums, [[1, -7, 9, 13], [4, 8, 12, 16]]);
+/// assert_eq!(sums[1], dot4_i8_i16(rows, &[0, 2]));
+/// ```
+#[inline]
+pub fn dot4x2_i8_i16(rows: [&[u8]; 4], acts: [&[i16]; 2]) -> [[i32; 4]; 2] {
+    acts.map(|a| dot4_i8_i16(rows, a))
+}
