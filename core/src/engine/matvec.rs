@@ -95,7 +95,7 @@ pub fn matvec_chunk(m: &QuantMatrix<'_>, acts: &[i16], act_scales: &[f32], out: 
         .enumerate()
     {
         let (j, split) = (2 * i, rows.min(o.len()));
-        if let (&[s0, s1], (o0, o1)) = (pair, o.split_at_mut(split)) {
+        if let (&[s0, s1], Some((o0, o1))) = (pair, o.split_at_mut_checked(split)) {
             let acts = [vector(acts, cols, j), vector(acts, cols, j + 1)];
             if arm::matvec_pair(m, acts, [s0, s1], [o0, o1]) {
                 continue;
@@ -273,7 +273,9 @@ mod arm {
         let quads = n / 4;
         // Rows past the scales get the portable path's 0.0 scale there.
         let first = out.len().min(scales.len()) / 4 * 4;
-        let (fast, rest) = out.split_at_mut(first);
+        let Some((fast, rest)) = out.split_at_mut_checked(first) else {
+            return false;
+        };
         starts(m, act, n, 0, fast);
         if !scaled_rows(m.weights(), cols, act, quads, scales, act_scale, fast) {
             return false;
