@@ -20,7 +20,7 @@ mod status_log;
 mod step_split;
 
 use cortex_m_rt::entry;
-use inkling_core::engine::recurrence::step;
+use inkling_core::engine::recurrence::{prefill, step};
 use inkling_core::session::{SearchOptions, Session};
 use inkling_core::{Model, Scratch};
 use inkling_firmware_example::line_reader::LineReader;
@@ -148,6 +148,18 @@ fn main() -> ! {
             }
         }
         log.figure("step_instructions", since(start) / BENCH_TEXT.len() as u64);
+
+        // The same text again from a fresh state, in prefill passes of PREFILL_CHUNK bytes.
+        state.fill(0.0);
+        let start = clock.ticks();
+        if let Err(e) = prefill(&model, state, &mut scratch, BENCH_TEXT) {
+            fail(&mut log, "engine prefill", &e, ExitCode::Internal)
+        }
+        log.figure("prefill_chunk_bytes", PREFILL_CHUNK as u64);
+        log.figure(
+            "prefill_chunk_instructions_per_byte",
+            since(start) / BENCH_TEXT.len() as u64,
+        );
     }
 
     let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {

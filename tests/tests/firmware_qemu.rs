@@ -331,4 +331,13 @@ fn figures_fit_the_part_and_the_clock_is_calibrated() {
         assert!(run.figure(name) > 0, "{name} is 0");
     }
     assert!(run.figure("keystroke_instructions_max") >= run.figure("keystroke_instructions_mean"));
+    // A prefill in passes reads each matrix once per pass and skips the output head until
+    // the last byte, so per byte it must cost less than a step (by construction of the engine;
+    // common practice, no source, for the size of the gain).
+    assert!(run.figure("prefill_chunk_bytes") >= 2);
+    let chunked = run.figure("prefill_chunk_instructions_per_byte");
+    assert!(
+        chunked > 0 && chunked < run.figure("step_instructions"),
+        "prefill in passes: {chunked} instructions per byte"
+    );
 }
