@@ -12,7 +12,9 @@
 //! y      = (s · C + skip * x) * silu(z)
 //! u      = u + contract · y
 //! ```
-//! then `logits = head · (rmsnorm(u) * final_norm)`.
+//! then `logits = head · (rmsnorm(u) * final_norm)`. Every exponential is computed as a
+//! power of two ([`exp2_nonpositive`]): `exp(dt·A)` as `2^((dt·log2 e)·A)`, SiLU and softplus
+//! from `e^(−|x|)`.
 //!
 //! The state of one block is its convolution window `[I, K-1]` (oldest first) followed by
 //! its SSM state `[I, N]`; blocks follow each other. It starts at zero.
