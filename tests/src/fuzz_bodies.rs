@@ -17,6 +17,8 @@ use inkling_core::{Engine, Error, KeyMap, Model, Scratch, Suggestions};
 use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 
+use crate::session_buffers::SessionBuffers;
+
 /// A fuzz target's body: any bytes in, a panic for a finding.
 pub type Body = fn(&[u8]);
 
@@ -123,8 +125,8 @@ pub fn engine_run(data: &[u8]) {
     }
     let _ = engine.most_likely_byte();
 
-    let mut buffers = SessionBuffers::new(&dims);
-    let mut session = buffers.session(model);
+    let mut buffers = SessionBuffers::<BEAMS>::new(&dims);
+    let mut session = buffers.session::<HISTORY>(model);
     let options = search_options(BEAMS);
     let mut searches = 0;
     for &b in text {
@@ -150,8 +152,8 @@ pub fn session_edits(data: &[u8]) {
     let image = tiny_image();
     let model = Model::from_bytes(&image).expect("the example image loads");
     let dims = *model.dims();
-    let mut buffers = SessionBuffers::new(&dims);
-    let mut session = buffers.session(model);
+    let mut buffers = SessionBuffers::<BEAMS>::new(&dims);
+    let mut session = buffers.session::<HISTORY>(model);
     // The text the state should stand for.
     let mut seen: Vec<u8> = Vec::new();
     let mut input = data.iter().copied();
@@ -203,8 +205,8 @@ pub fn session_edits(data: &[u8]) {
         assert!(session.logits().iter().all(|v| v.is_finite()));
         assert!(session.word().len() <= MAX_WORD_LEN && session.history().len() <= HISTORY);
     }
-    let mut fresh_buffers = SessionBuffers::new(&dims);
-    let mut fresh = fresh_buffers.session(model);
+    let mut fresh_buffers = SessionBuffers::<BEAMS>::new(&dims);
+    let mut fresh = fresh_buffers.session::<HISTORY>(model);
     fresh
         .push_bytes(&seen)
         .expect("the text pushes as it did before");
@@ -299,27 +301,3 @@ fn bits(values: &[f32]) -> Vec<u32> {
 
 /// The session every body runs.
 type FuzzSession<'b> = Session<'b, Model<'b>, BEAMS, HISTORY>;
-
-/// Heap buffers of one session over a model.
-struct SessionBuffers {
-    floats: Vec<f32>,
-    work: Vec<f32>,
-    act: Vec<i16>,
-}
-
-impl SessionBuffers {
-    fn new(dims: &inkling_core::Dims) -> Self {
-        SessionBuffers {
-            floats: vec![0.0; dims.session_floats(BEAMS)],
-            work: vec![0.0; dims.work_len()],
-            act: vec![0; dims.act_len()],
-        }
-    }
-
-    fn session<'b>(&'b mut self, model: Model<'b>) -> FuzzSession<'b> {
-        let dims = *model.dims();
-        let scratch =
-            Scratch::new(&dims, &mut self.work, &mut self.act).expect("buffers sized by the model");
-        Session::new(model, &mut self.floats, scratch).expect("buffers sized by the model")
-    }
-}

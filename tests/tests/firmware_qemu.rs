@@ -10,9 +10,10 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
-use inkling_core::session::{SearchOptions, Session};
-use inkling_core::{Model, Scratch};
+use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::Model;
 use inkling_tests::inkling_cli::{run_json, suggest_json};
+use inkling_tests::session_buffers::SessionBuffers;
 
 /// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
 const SUGGESTIONS: usize = 3;
@@ -154,12 +155,8 @@ fn firmware_run() -> &'static FirmwareRun {
 /// What the firmware does with the typed bytes, done here with the same core on the host.
 fn host_session_replay(image: &[u8], typed: &[u8]) -> Vec<Keystroke> {
     let model = Model::from_bytes(image).expect("the image is valid");
-    let dims = *model.dims();
-    let mut states = vec![0.0f32; dims.session_floats(SUGGESTIONS)];
-    let mut work = vec![0.0f32; dims.work_len()];
-    let mut act = vec![0i16; dims.act_len()];
-    let scratch = Scratch::new(&dims, &mut work, &mut act).expect("scratch");
-    let mut session = Session::<_, SUGGESTIONS>::new(model, &mut states, scratch).expect("session");
+    let mut buffers = SessionBuffers::<SUGGESTIONS>::new(model.dims());
+    let mut session = buffers.session::<DEFAULT_HISTORY>(model);
     let options = SearchOptions::new(SUGGESTIONS);
     let mut out = Vec::new();
     let lines = typed
@@ -273,12 +270,8 @@ fn suggestions_match_the_inkling_command() {
     // `inkling next` on the same text gives the logits the session suggested from.
     let bytes = std::fs::read(&image).expect("the image");
     let model = Model::from_bytes(&bytes).expect("the image is valid");
-    let dims = *model.dims();
-    let mut states = vec![0.0f32; dims.session_floats(SUGGESTIONS)];
-    let mut work = vec![0.0f32; dims.work_len()];
-    let mut act = vec![0i16; dims.act_len()];
-    let scratch = Scratch::new(&dims, &mut work, &mut act).expect("scratch");
-    let mut session = Session::<_, SUGGESTIONS>::new(model, &mut states, scratch).expect("session");
+    let mut buffers = SessionBuffers::<SUGGESTIONS>::new(model.dims());
+    let mut session = buffers.session::<DEFAULT_HISTORY>(model);
     let mut checked = 0;
     for (_, text) in texts(run).into_iter().step_by(7) {
         session.clear().expect("clear");

@@ -36,13 +36,14 @@ use std::time::Instant;
 
 use inkling_core::image::format::{Role, VOCAB};
 use inkling_core::image::views::{Floats, QuantMatrix};
-use inkling_core::session::{is_boundary, SearchOptions, Session, MAX_WORD_LEN};
-use inkling_core::{Error, KeyMap, Model, Scratch, Suggestions};
+use inkling_core::session::{is_boundary, SearchOptions, Session, DEFAULT_HISTORY, MAX_WORD_LEN};
+use inkling_core::{Error, KeyMap, Model, Suggestions};
 use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
 use inkling_tests::numpy_reference::make_checkpoint;
 use inkling_tests::run_seed::{base_seed, SplitMix64};
+use inkling_tests::session_buffers::SessionBuffers;
 
 /// Beams of the soaked sessions.
 const BEAMS: usize = 3;
@@ -328,39 +329,18 @@ fn check_state(saved: &[f32], bounds: &Bounds, fed: u64) -> f32 {
     worst
 }
 
-/// Heap buffers of one session.
-struct Buffers {
-    floats: Vec<f32>,
-    work: Vec<f32>,
-    act: Vec<i16>,
-}
-
-impl Buffers {
-    fn new(model: &Model<'_>) -> Self {
-        let d = model.dims();
-        Buffers {
-            floats: vec![0.0; d.session_floats(BEAMS)],
-            work: vec![0.0; d.work_len()],
-            act: vec![0; d.act_len()],
-        }
-    }
-
-    fn session<'b>(&'b mut self, model: Model<'b>) -> SoakSession<'b> {
-        let d = *model.dims();
-        let scratch = Scratch::new(&d, &mut self.work, &mut self.act).expect("scratch");
-        Session::new(model, &mut self.floats, scratch).expect("session")
-    }
-}
-
 /// Types `total` bytes of the seed's event stream into a session over `image`, with all the
 /// checks of the module comment, restoring into the second session about once every
 /// `restore_every` events; panics on the first failure.
 fn soak(image: &[u8], total: u64, restore_every: u64, seed: u64, name: &str) {
     let model = Model::from_bytes(image).expect("the soaked image loads");
     let bounds = bounds(&model);
-    let (mut b1, mut b2) = (Buffers::new(&model), Buffers::new(&model));
-    let mut first = b1.session(model);
-    let mut second = b2.session(model);
+    let (mut b1, mut b2) = (
+        SessionBuffers::<BEAMS>::new(model.dims()),
+        SessionBuffers::<BEAMS>::new(model.dims()),
+    );
+    let mut first = b1.session::<DEFAULT_HISTORY>(model);
+    let mut second = b2.session::<DEFAULT_HISTORY>(model);
     let mut saved = vec![0.0f32; first.saved_len()];
     let mut typist = Typist::new(seed);
     let mut picker = SplitMix64::new(seed ^ 0x5EED);
