@@ -122,7 +122,7 @@ pub fn rms_norm(v: &[f32], weight: impl FloatRun, eps: f32, out: &mut [f32]) {
         sum += x * x;
     }
     let inv = 1.0 / libm::sqrtf(sum / v.len().max(1) as f32 + eps);
-    for ((o, &x), w) in out.iter_mut().zip(v).zip(weight.run(0, v.len())) {
+    for ((o, &x), w) in out.iter_mut().zip(v).zip(weight.values()) {
         *o = x * inv * w;
     }
 }

@@ -20,8 +20,10 @@
 //! its SSM state `[I, N]`; blocks follow each other. It starts at zero.
 //!
 //! [`prefill`] runs several known bytes block by block, so that each weight row is read once
-//! for the whole chunk and the output head only for the last byte; [`step`] is a prefill of
-//! one byte. Every value is computed by the same operations in the same order either way,
+//! for the whole chunk. It computes only what its result needs: the residual after the last
+//! block feeds nothing but the output head, so the last block's `contract` and the head run
+//! for the last byte alone (and not at all in a pass whose logits nobody reads). [`step`] is a
+//! prefill of one byte. Every value is computed by the same operations in the same order either way,
 //! so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
 use super::buffers::{check_len, Scratch};
@@ -150,7 +152,21 @@ fn run_pass<W: Weights + ?Sized>(
     }
     let per_block = i_n * (k - 1 + n);
     for (l, block_state) in state.chunks_exact_mut(per_block).enumerate() {
-        run_block(weights, d, l, block_state, &mut a, t, act);
+        // Every byte's output of a block feeds the next block; the last block's outputs feed
+        // only the head, which wants the last byte's, or none.
+        let output_from = match (l + 1 == d.blocks, logits_wanted) {
+            (false, _) => 0,
+            (true, true) => t.saturating_sub(1),
+            (true, false) => t,
+        };
+        let block = Block {
+            weights,
+            d,
+            l,
+            t,
+            output_from,
+        };
+        block.run_on(block_state, &mut a, act);
     }
     if logits_wanted {
         let last = a.u.chunks_exact(dm).last().unwrap_or(&[]);
@@ -203,33 +219,27 @@ impl<'a> BlockFloats<Floats<'a>> {
     }
 }
 
-/// Block `l` over the `t` bytes of a pass.
-fn run_block<W: Weights + ?Sized>(
-    weights: &W,
-    d: &Dims,
-    l: usize,
-    block_state: &mut [f32],
-    a: &mut PassAreas<'_>,
-    t: usize,
-    act: &mut [i16],
-) {
-    let floats = BlockFloats::of(weights, l);
-    let block = Block { weights, d, l, t };
-    match floats.as_slices() {
-        Some(slices) => block.run(&slices, block_state, a, act),
-        None => block.run(&floats, block_state, a, act),
-    }
-}
-
 /// What every part of block `l`'s pass over `t` bytes needs.
 struct Block<'w, W: Weights + ?Sized> {
     weights: &'w W,
     d: &'w Dims,
     l: usize,
     t: usize,
+    /// The first byte whose output (the `contract` product added to the residual) is used;
+    /// `t` when none is.
+    output_from: usize,
 }
 
 impl<W: Weights + ?Sized> Block<'_, W> {
+    /// The pass, with the float tensors in the form that suits them.
+    fn run_on(&self, block_state: &mut [f32], a: &mut PassAreas<'_>, act: &mut [i16]) {
+        let floats = BlockFloats::of(self.weights, self.l);
+        match floats.as_slices() {
+            Some(slices) => self.run(&slices, block_state, a, act),
+            None => self.run(&floats, block_state, a, act),
+        }
+    }
+
     fn run<F: FloatRun>(
         &self,
         f: &BlockFloats<F>,
@@ -268,12 +278,16 @@ impl<W: Weights + ?Sized> Block<'_, W> {
             .zip(a.dt.chunks_exact_mut(i_n))
         {
             let rank = rbc_t.get(..r).unwrap_or(&[]);
-            for (i, dti) in dt_t.iter_mut().enumerate() {
+            for ((dti, row), bias) in dt_t
+                .iter_mut()
+                .zip(f.step.rows(r))
+                .zip(f.step_bias.values())
+            {
                 let mut acc = 0.0f32;
-                for (w, &ri) in f.step.run(i * r, r).zip(rank) {
+                for (w, &ri) in row.zip(rank) {
                     acc += w * ri;
                 }
-                *dti = acc + f.step_bias.at(i);
+                *dti = acc + bias;
             }
         }
         a.dt.iter_mut().for_each(|v| *v = softplus(*v));
@@ -286,10 +300,15 @@ impl<W: Weights + ?Sized> Block<'_, W> {
         };
         scan_pass(&scan, a, d, ssm);
 
-        self.weights
-            .matvec_chunk(l, Role::Contract, a.xy, t, act, a.h);
-        for (ui, &hi) in a.u.iter_mut().zip(a.h.iter()) {
-            *ui += hi;
+        let from = self.output_from.min(t);
+        if from < t {
+            let y = a.xy.get(from * i_n..).unwrap_or(&[]);
+            self.weights
+                .matvec_chunk(l, Role::Contract, y, t - from, act, a.h);
+            let u = a.u.get_mut(from * dm..).unwrap_or(&mut []);
+            for (ui, &hi) in u.iter_mut().zip(a.h.iter()) {
+                *ui += hi;
+            }
         }
     }
 }
@@ -313,15 +332,16 @@ fn scan_pass<F: FloatRun>(scan: &ScanWeights<F>, a: &mut PassAreas<'_>, d: &Dims
 /// One byte of the causal depthwise convolution, before its SiLU: `x[i] = bias[i] +
 /// Σ_k conv[i,k] · (window[i] then x[i])`, and the window moves on by one.
 fn convolve<F: FloatRun>(x: &mut [f32], window: &mut [f32], conv: F, bias: F, k: usize) {
-    for (i, xi) in x.iter_mut().enumerate() {
-        let past = window
-            .get_mut(i * (k - 1)..(i + 1) * (k - 1))
-            .unwrap_or(&mut []);
-        let mut acc = bias.at(i);
-        for (tap, &p) in conv.run(i * k, k - 1).zip(past.iter()) {
+    let mut windows = window;
+    for ((xi, mut taps), b) in x.iter_mut().zip(conv.rows(k)).zip(bias.values()) {
+        let (past, later) = carve(core::mem::take(&mut windows), k - 1);
+        windows = later;
+        let mut acc = b;
+        // `past` first in the zip, so that its end does not take a tap.
+        for (&p, tap) in past.iter().zip(taps.by_ref()) {
             acc += tap * p;
         }
-        acc += conv.at(i * k + k - 1) * *xi;
+        acc += taps.next().unwrap_or(0.0) * *xi;
         // Each value takes its newer neighbour's and the newest is x: a carry from the new
         // end, which the compiler keeps in registers (a shifting copy becomes a memmove call).
         let mut carry = *xi;
@@ -360,31 +380,36 @@ impl<F: FloatRun> ScanWeights<F> {
     ) {
         let n = self.n;
         #[cfg(target_arch = "arm")]
-        for (i, ((yi, s), (&dti, &gate))) in xy
+        for (((yi, s), (&dti, &gate)), (decay, skip)) in xy
             .iter_mut()
             .zip(ssm.chunks_exact_mut(n))
             .zip(dt.iter().zip(gate))
-            .enumerate()
+            .zip(self.decay.rows(n).zip(self.skip.values()))
         {
             let (dt_log2, dx) = (dti * core::f32::consts::LOG2_E, dti * *yi);
             let mut acc = 0.0f32;
-            for (((sn, a), &bn), &cn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b).zip(c) {
+            for (((sn, a), &bn), &cn) in s.iter_mut().zip(decay).zip(b).zip(c) {
                 *sn = decayed(*sn, a, dt_log2, dx, bn);
                 acc += *sn * cn;
             }
-            *yi = self.output(i, acc, *yi, gate);
+            *yi = output(acc, skip, *yi, gate);
         }
 
         #[cfg(not(target_arch = "arm"))]
         {
-            for (i, ((s, &dti), &xi)) in ssm.chunks_exact_mut(n).zip(dt).zip(xy.iter()).enumerate()
+            for (((s, &dti), &xi), decay) in ssm
+                .chunks_exact_mut(n)
+                .zip(dt)
+                .zip(xy.iter())
+                .zip(self.decay.rows(n))
             {
                 let (dt_log2, dx) = (dti * core::f32::consts::LOG2_E, dti * xi);
-                for ((sn, a), &bn) in s.iter_mut().zip(self.decay.run(i * n, n)).zip(b) {
+                for ((sn, a), &bn) in s.iter_mut().zip(decay).zip(b) {
                     *sn = decayed(*sn, a, dt_log2, dx, bn);
                 }
             }
-            let mut done = 0;
+            // Channels in order, so the skip weights are taken in order.
+            let (mut done, mut skips) = (0, self.skip.values());
             for ((y4, s4), g4) in xy
                 .chunks_exact_mut(4)
                 .zip(ssm.chunks_exact(4 * n))
@@ -404,32 +429,32 @@ impl<F: FloatRun> ScanWeights<F> {
                     acc[3] += s3 * cn;
                 }
                 for ((y, &g), acc) in y4.iter_mut().zip(g4).zip(acc) {
-                    *y = self.output(done, acc, *y, g);
+                    *y = output(acc, skips.next().unwrap_or(0.0), *y, g);
                     done += 1;
                 }
             }
             // The channels after the last four.
-            for (i, ((yi, s), &g)) in xy
+            for (((yi, s), &g), skip) in xy
                 .iter_mut()
                 .zip(ssm.chunks_exact(n))
                 .zip(gate)
-                .enumerate()
                 .skip(done)
+                .zip(skips)
             {
                 let mut acc = 0.0f32;
                 for (&sn, &cn) in s.iter().zip(c) {
                     acc += sn * cn;
                 }
-                *yi = self.output(i, acc, *yi, g);
+                *yi = output(acc, skip, *yi, g);
             }
         }
     }
+}
 
-    /// Channel `i`'s output from its read-out `acc`, input `x` and gate.
-    #[inline(always)]
-    fn output(&self, i: usize, acc: f32, x: f32, gate: f32) -> f32 {
-        (acc + self.skip.at(i) * x) * gate
-    }
+/// A channel's output from its read-out `acc`, skip weight, input `x` and gate.
+#[inline(always)]
+fn output(acc: f32, skip: f32, x: f32, gate: f32) -> f32 {
+    (acc + skip * x) * gate
 }
 
 /// One state's update: `2^(dt_log2 · a) · s + dx · b`.

@@ -311,37 +311,66 @@ impl<'a> QuantMatrix<'a> {
     }
 }
 
-/// Read access to the values of a float tensor, a run at a time: implemented by plain
-/// `&[f32]` and by [`Floats`], so a hot loop is written once and compiled for both (the
-/// slice version is the one that vectorises).
+/// Read access to the values of a float tensor, in order or row after row: implemented by
+/// plain `&[f32]` and by [`Floats`], so a hot loop is written once and compiled for both (the
+/// slice version is the one that vectorises). Hot loops walk the rows with an iterator
+/// rather than looking each row up by index, which would check its range every time.
 ///
 /// ```
 /// use inkling_core::image::views::{FloatRun, Floats};
-/// fn total(v: impl FloatRun) -> f32 { v.run(0, 3).sum() }
+/// fn total(v: impl FloatRun) -> f32 { v.values().sum() }
 /// let x = [1.0f32, 2.0, 3.0];
 /// assert_eq!(total(&x[..]), total(Floats::Native(&x)));
-/// assert_eq!((&x[..]).at(5), 0.0);
 /// ```
 pub trait FloatRun: Copy {
-    /// Values `start..start + len` (fewer where out of range).
-    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32>;
+    /// Every value, in order.
+    ///
+    /// ```
+    /// use inkling_core::image::views::FloatRun;
+    /// let x = [1.0f32, 2.0];
+    /// assert_eq!((&x[..]).values().collect::<Vec<_>>(), [1.0, 2.0]);
+    /// ```
+    fn values(self) -> impl Iterator<Item = f32>;
 
-    /// Value `i`, or 0.0 past the end.
-    fn at(self, i: usize) -> f32 {
-        self.run(i, 1).next().unwrap_or(0.0)
-    }
+    /// The values as consecutive rows of `width` (a matrix stored row after row); a last
+    /// partial row is left out. A width of 0 gives no rows.
+    ///
+    /// ```
+    /// use inkling_core::image::views::{FloatRun, Floats};
+    /// let x = [1.0f32, 2.0, 3.0, 4.0, 5.0];
+    /// let sums: Vec<f32> = (&x[..]).rows(2).map(|row| row.sum()).collect();
+    /// assert_eq!(sums, [3.0, 7.0]);
+    /// assert_eq!(Floats::Native(&x).rows(2).count(), 2);
+    /// assert_eq!((&x[..]).rows(0).count(), 0);
+    /// ```
+    fn rows(self, width: usize) -> impl Iterator<Item = impl Iterator<Item = f32>>;
 }
 
 impl FloatRun for &[f32] {
     #[inline]
-    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32> {
-        self.get(start..start + len).unwrap_or(&[]).iter().copied()
+    fn values(self) -> impl Iterator<Item = f32> {
+        self.iter().copied()
+    }
+
+    #[inline]
+    fn rows(self, width: usize) -> impl Iterator<Item = impl Iterator<Item = f32>> {
+        // No rows at all for width 0 (`chunks_exact` needs a width of at least 1).
+        let usable = if width == 0 { &[][..] } else { self };
+        usable
+            .chunks_exact(width.max(1))
+            .map(|row| row.iter().copied())
     }
 }
 
 impl FloatRun for Floats<'_> {
     #[inline]
-    fn run(self, start: usize, len: usize) -> impl Iterator<Item = f32> {
-        self.slice(start, len).iter()
+    fn values(self) -> impl Iterator<Item = f32> {
+        self.iter()
+    }
+
+    #[inline]
+    fn rows(self, width: usize) -> impl Iterator<Item = impl Iterator<Item = f32>> {
+        let count = self.len().checked_div(width).unwrap_or(0);
+        (0..count).map(move |i| self.slice(i * width, width).iter())
     }
 }
