@@ -26,6 +26,8 @@
 //! prefill of one byte. Every value is computed by the same operations in the same order either way,
 //! so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
+use core::cell::Cell;
+
 use super::buffers::{check_len, Scratch};
 use super::nonlinear::{exp2_nonpositive, rms_norm, silu, softplus};
 use super::weights::Weights;
@@ -283,11 +285,7 @@ impl<W: Weights + ?Sized> Block<'_, W> {
                 .zip(f.step.rows(r))
                 .zip(f.step_bias.values())
             {
-                let mut acc = 0.0f32;
-                for (w, &ri) in row.zip(rank) {
-                    acc += w * ri;
-                }
-                *dti = acc + bias;
+                *dti = row.zip(rank).fold(0.0f32, |acc, (w, &ri)| acc + w * ri) + bias;
             }
         }
         a.dt.iter_mut().for_each(|v| *v = softplus(*v));
@@ -336,17 +334,23 @@ fn convolve<F: FloatRun>(x: &mut [f32], window: &mut [f32], conv: F, bias: F, k:
     for ((xi, mut taps), b) in x.iter_mut().zip(conv.rows(k)).zip(bias.values()) {
         let (past, later) = carve(core::mem::take(&mut windows), k - 1);
         windows = later;
+        // One pass over the window, oldest first: each value meets its tap and then moves
+        // one place older (a separate shifting copy costs a loop, or a memmove call).
+        let past = Cell::from_mut(past).as_slice_of_cells();
         let mut acc = b;
+        let mut older: Option<&Cell<f32>> = None;
         // `past` first in the zip, so that its end does not take a tap.
-        for (&p, tap) in past.iter().zip(taps.by_ref()) {
+        for (slot, tap) in past.iter().zip(taps.by_ref()) {
+            let p = slot.get();
             acc += tap * p;
+            if let Some(older) = older {
+                older.set(p);
+            }
+            older = Some(slot);
         }
         acc += taps.next().unwrap_or(0.0) * *xi;
-        // Each value takes its newer neighbour's and the newest is x: a carry from the new
-        // end, which the compiler keeps in registers (a shifting copy becomes a memmove call).
-        let mut carry = *xi;
-        for p in past.iter_mut().rev() {
-            carry = core::mem::replace(p, carry);
+        if let Some(older) = older {
+            older.set(*xi);
         }
         *xi = acc;
     }
