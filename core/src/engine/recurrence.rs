@@ -23,8 +23,8 @@
 //! for the whole chunk. It computes only what its result needs: the residual after the last
 //! block feeds nothing but the output head, so the last block's `contract` and the head run
 //! for the last byte alone (and not at all in a pass whose logits nobody reads). [`step`] is a
-//! prefill of one byte. Every value is computed by the same operations in the same order either way,
-//! so a prefill gives bit for bit the state and logits of stepping byte by byte.
+//! prefill of one byte. Every value is computed by the same operations in the same order
+//! either way, so a prefill gives bit for bit the state and logits of stepping byte by byte.
 
 use core::cell::Cell;
 
@@ -168,7 +168,7 @@ fn run_pass<W: Weights + ?Sized>(
             t,
             output_from,
         };
-        block.run_on(block_state, &mut a, act);
+        block.run(block_state, &mut a, act);
     }
     if logits_wanted {
         let last = a.u.chunks_exact(dm).last().unwrap_or(&[]);
@@ -234,15 +234,16 @@ struct Block<'w, W: Weights + ?Sized> {
 
 impl<W: Weights + ?Sized> Block<'_, W> {
     /// The pass, with the float tensors in the form that suits them.
-    fn run_on(&self, block_state: &mut [f32], a: &mut PassAreas<'_>, act: &mut [i16]) {
+    fn run(&self, block_state: &mut [f32], a: &mut PassAreas<'_>, act: &mut [i16]) {
         let floats = BlockFloats::of(self.weights, self.l);
         match floats.as_slices() {
-            Some(slices) => self.run(&slices, block_state, a, act),
-            None => self.run(&floats, block_state, a, act),
+            Some(slices) => self.run_with(&slices, block_state, a, act),
+            None => self.run_with(&floats, block_state, a, act),
         }
     }
 
-    fn run<F: FloatRun>(
+    /// The pass with the float tensors `f`.
+    fn run_with<F: FloatRun>(
         &self,
         f: &BlockFloats<F>,
         block_state: &mut [f32],
