@@ -95,15 +95,30 @@ pub fn silu(x: f32) -> f32 {
 /// ```
 #[inline]
 pub fn softplus(x: f32) -> f32 {
-    let u = exp_neg_abs(x);
+    let positive = if x > 0.0 { x } else { 0.0 };
+    positive + ln_1p_unit(exp_neg_abs(x))
+}
+
+/// `ln(1 + u)` for `u` in `[0, 1]`, with no logarithm call: `2·atanh(s)`, `s = u / (2 + u) ≤ 1/3`,
+/// summed as its odd series to `s^13` (the next term is below 1.5e-8 of the sum), so there is
+/// no cancellation for small `u`. The logarithm of [`softplus`]; the trainer uses it too, so
+/// that its softplus is the engine's. Outside `[0, 1]` the series is cut too short to be right.
+///
+/// ```
+/// use inkling_core::engine::nonlinear::ln_1p_unit;
+/// assert_eq!(ln_1p_unit(0.0), 0.0);
+/// assert!((ln_1p_unit(1.0) - core::f32::consts::LN_2).abs() < 1e-7);
+/// assert!((ln_1p_unit(1e-8) - 1e-8).abs() < 1e-15);
+/// ```
+#[inline]
+pub fn ln_1p_unit(u: f32) -> f32 {
     let s = u / (2.0 + u);
     let z = s * s;
     let series = 1.0
         + z * (1.0 / 3.0
             + z * (1.0 / 5.0
                 + z * (1.0 / 7.0 + z * (1.0 / 9.0 + z * (1.0 / 11.0 + z * (1.0 / 13.0))))));
-    let positive = if x > 0.0 { x } else { 0.0 };
-    positive + 2.0 * s * series
+    2.0 * s * series
 }
 
 /// RMS norm: `out = v / sqrt(mean(v²) + eps) · weight`.

@@ -94,7 +94,7 @@ impl Real for f32 {
     }
     #[inline(always)]
     fn ln_1p_unit(self) -> Self {
-        ln_1p_f32_unit(self)
+        inkling_core::engine::nonlinear::ln_1p_unit(self)
     }
     unsafe fn gemm_raw(
         m: usize,
@@ -196,20 +196,6 @@ fn exp_f32_nonpositive(x: f32) -> f32 {
     p * scale
 }
 
-/// ln(1 + e) for e in [0, 1]: with u = e/(2 + e) ∈ [0, 1/3],
-/// ln(1 + e) = 2·atanh(u) = 2(u + u³/3 + u⁵/5 + …) (the series of atanh);
-/// terms to u¹³ leave a relative error below 1e-7 (u² ≤ 1/9).
-#[inline(always)]
-fn ln_1p_f32_unit(e: f32) -> f32 {
-    let u = e / (2.0 + e);
-    let u2 = u * u;
-    let series = 1.0
-        + u2 * (1.0 / 3.0
-            + u2 * (1.0 / 5.0
-                + u2 * (1.0 / 7.0 + u2 * (1.0 / 9.0 + u2 * (1.0 / 11.0 + u2 * (1.0 / 13.0))))));
-    2.0 * u * series
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -230,7 +216,7 @@ mod tests {
         // Reference: the standard library's ln_1p.
         let mut e = 0.0f32;
         while e <= 1.0 {
-            let (got, want) = (ln_1p_f32_unit(e), e.ln_1p());
+            let (got, want) = (inkling_core::engine::nonlinear::ln_1p_unit(e), e.ln_1p());
             assert!(
                 (got - want).abs() <= 3e-7 * want.max(1e-30),
                 "ln_1p({e}): {got} vs {want}"
