@@ -4,22 +4,29 @@ use std::path::PathBuf;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::OnceLock;
 
-use crate::train::batches::Corpus;
+use crate::train::batches::{Corpus, CorpusFile, Holdout};
+use crate::train::config::{parse_shape, ModelDims};
 use crate::train::{train, Preset, TrainError, TrainOptions};
 
 /// Train a byte-level model on raw-byte corpus files (CPU).
 #[derive(Clone, Debug, clap::Args)]
 pub struct TrainArgs {
-    /// Corpus files (raw bytes); the last --holdout fraction of each is held out.
-    #[arg(required = true)]
-    pub corpus: Vec<PathBuf>,
-    /// Checkpoint to write (safetensors); optimizer state and loss curve go beside it.
-    /// Defaults to the --resume checkpoint.
+    /// Corpus files (raw bytes), each `PATH` or `PATH@WEIGHT` (its bytes drawn WEIGHT
+    /// times as often as a weight-1 file's); the tail of each is held out (--holdout).
+    #[arg(required = true, value_parser = CorpusFile::parse, value_name = "FILE[@WEIGHT]")]
+    pub corpus: Vec<CorpusFile>,
+    /// Checkpoint to write (safetensors): the parameters with the best held-out bits per
+    /// byte. The resume state (latest parameters, optimizer) and the loss curve go beside
+    /// it. Defaults to the --resume checkpoint.
     #[arg(long, value_name = "CKPT", required_unless_present = "resume")]
     pub out: Option<PathBuf>,
     /// Model size preset [default: small]; on --resume it must match the checkpoint.
     #[arg(long, value_enum)]
     pub config: Option<Preset>,
+    /// Dimensions that replace the preset's, as name=value pairs (blocks, d, i, n, k, r),
+    /// e.g. `--shape blocks=2,d=104,i=160`; `inkling budget` lists shapes that fit a part.
+    #[arg(long, value_name = "DIMS")]
+    pub shape: Option<String>,
     /// Give the model its own output matrix instead of reusing byte_embed.
     #[arg(long)]
     pub untied_head: bool,
@@ -30,12 +37,20 @@ pub struct TrainArgs {
     /// then follows whichever of steps and seconds runs out first.
     #[arg(long)]
     pub seconds: Option<f64>,
-    /// Continue from this checkpoint and its `<CKPT>.adamw.safetensors`.
+    /// Continue a stopped run from this checkpoint's `<CKPT>.adamw.safetensors`.
     #[arg(long, value_name = "CKPT")]
     pub resume: Option<PathBuf>,
+    /// Fine-tune: start from this trained checkpoint's weights with a fresh optimizer and
+    /// learning-rate schedule (--steps counts from 0). Its shape must match --config/--shape
+    /// if given.
+    #[arg(long, value_name = "CKPT", conflicts_with = "resume")]
+    pub from: Option<PathBuf>,
     /// Fraction of each corpus file kept out of training for held-out bits per byte.
     #[arg(long, default_value_t = 0.01)]
     pub holdout: f64,
+    /// ... but at least this many bytes of each file (at most half of it).
+    #[arg(long, default_value_t = 2048, value_name = "BYTES")]
+    pub holdout_min_bytes: usize,
     /// Sequences per step.
     #[arg(long, default_value_t = 16)]
     pub batch: usize,
@@ -72,6 +87,28 @@ fn install_ctrl_c() -> Result<(), TrainError> {
         .map_err(TrainError::CtrlC)
 }
 
+/// The new model's shape from `--config`, `--shape` and `--untied-head`; `None`
+/// when none is given (the preset's default, or the resumed checkpoint's).
+fn shape(args: &TrainArgs) -> Result<Option<(ModelDims, String)>, TrainError> {
+    if args.config.is_none() && args.shape.is_none() && !args.untied_head {
+        return Ok(None);
+    }
+    let preset = args.config.unwrap_or(Preset::Small);
+    let mut dims = preset.dims();
+    let mut name = preset.name().to_string();
+    if let Some(spec) = &args.shape {
+        dims = parse_shape(dims, spec).map_err(|reason| TrainError::InvalidOption {
+            option: "--shape",
+            reason,
+        })?;
+        if dims != preset.dims() {
+            name = "custom".into();
+        }
+    }
+    dims.tied = !args.untied_head;
+    Ok(Some((dims, name)))
+}
+
 pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
     let Some(out) = args.out.clone().or_else(|| args.resume.clone()) else {
         return Err(TrainError::InvalidOption {
@@ -85,11 +122,11 @@ pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
     let opts = TrainOptions {
         out,
-        preset: args.config,
-        untied_head: args.untied_head,
+        shape: shape(args)?,
         steps: args.steps,
         seconds: args.seconds,
         resume: args.resume.clone(),
+        from: args.from.clone(),
         batch: args.batch,
         seq_len: args.seq_len,
         lr: args.lr,
@@ -98,7 +135,11 @@ pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
         threads,
         show_progress: true,
     };
-    let corpus = Corpus::load(&args.corpus, args.holdout)?;
+    let holdout = Holdout {
+        fraction: args.holdout,
+        min_bytes: args.holdout_min_bytes,
+    };
+    let corpus = Corpus::load(&args.corpus, holdout)?;
     eprintln!(
         "training on {} bytes, {} held out, {threads} threads",
         corpus.train_bytes(),
@@ -115,15 +156,18 @@ pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
     if args.json {
         println!("{}", serde_json::to_string(&summary).unwrap_or_default());
     } else {
-        let held = summary
-            .heldout_bits_per_byte
-            .map_or("-".into(), |v| format!("{v:.3}"));
+        let bits = |v: Option<f64>| v.map_or("-".into(), |v| format!("{v:.3}"));
         println!(
-            "step {}: train loss {:.3} nats/byte, held-out {held} bits/byte, {:.0} bytes/s over {:.1} s\nwrote {}, {}, {}, {}",
+            "step {}: train {:.3} bits/byte, held-out {} bits/byte, {:.0} bytes/s over {:.1} s\n\
+             checkpoint: step {} (held-out {} bits/byte, the best seen)\n\
+             wrote {}, {}, {}, {}",
             summary.steps,
-            summary.final_train_loss_nats,
+            summary.final_train_bits_per_byte,
+            bits(summary.heldout_bits_per_byte),
             summary.bytes_per_second,
             summary.seconds,
+            summary.checkpoint_step,
+            bits(summary.checkpoint_heldout_bits_per_byte),
             summary.checkpoint.display(),
             summary.optimizer_state.display(),
             summary.loss_csv.display(),

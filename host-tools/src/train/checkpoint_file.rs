@@ -20,7 +20,8 @@ pub struct Checkpoint {
     pub params: Vec<f32>,
 }
 
-/// `<checkpoint>.adamw.safetensors`: where the optimizer state of a checkpoint lives.
+/// `<checkpoint>.adamw.safetensors`: where the resume state of a checkpoint lives (the
+/// latest parameters and the optimizer's moments).
 pub fn optimizer_path(checkpoint: &Path) -> PathBuf {
     let mut s = checkpoint.as_os_str().to_owned();
     s.push(".adamw.safetensors");
@@ -226,11 +227,13 @@ pub fn read_checkpoint(path: &Path) -> Result<Checkpoint, TrainError> {
     })
 }
 
-/// The optimizer state: `m.<tensor>` and `v.<tensor>` per parameter tensor, and
-/// metadata `step` (updates done) and `seconds` (training wall time so far).
+/// The resume state: the latest parameters `p.<tensor>` (the checkpoint itself keeps the
+/// best held-out ones, which may be older), the optimizer's `m.<tensor>` and `v.<tensor>` per
+/// parameter tensor, and metadata `step` (updates done) and `seconds` (training wall time so far).
 pub fn write_optimizer(
     path: &Path,
     layout: &Layout,
+    params: &[f32],
     opt: &AdamW,
     seconds: f64,
 ) -> Result<(), TrainError> {
@@ -242,43 +245,54 @@ pub fn write_optimizer(
     .collect();
     let mut tensors = Vec::new();
     for s in &layout.slots {
-        tensors.push((
-            format!("m.{}", s.name),
-            s.shape.clone(),
-            f32_bytes(&opt.m[s.range.clone()]),
-        ));
-        tensors.push((
-            format!("v.{}", s.name),
-            s.shape.clone(),
-            f32_bytes(&opt.v[s.range.clone()]),
-        ));
+        for (prefix, values) in [("p", params), ("m", &opt.m), ("v", &opt.v)] {
+            tensors.push((
+                format!("{prefix}.{}", s.name),
+                s.shape.clone(),
+                f32_bytes(&values[s.range.clone()]),
+            ));
+        }
     }
     write_atomically(path, &encode(path, tensors, meta)?)
 }
 
-/// Reads the optimizer state for `layout`; returns it and the training seconds so far.
+/// What a resume state holds.
+pub struct ResumeState {
+    pub opt: AdamW,
+    /// Training wall time so far.
+    pub seconds: f64,
+    /// The latest parameters, when the file has them (files of earlier versions do not:
+    /// their checkpoint held the latest parameters).
+    pub params: Option<Vec<f32>>,
+}
+
+/// Reads the resume state for `layout`.
 pub fn read_optimizer(
     path: &Path,
     layout: &Layout,
     settings: AdamWSettings,
-) -> Result<(AdamW, f64), TrainError> {
+) -> Result<ResumeState, TrainError> {
     let bytes = read(path)?;
     let (st, meta) = parse(path, &bytes)?;
     let mut opt = AdamW::new(layout, settings);
     opt.step = meta_u64(path, &meta, "step")?;
+    let has_params = st.tensor(&format!("p.{}", layout.slots[0].name)).is_ok();
+    let mut params = has_params.then(|| vec![0.0f32; layout.len]);
     for s in &layout.slots {
-        opt.m[s.range.clone()].copy_from_slice(&tensor_f32(
-            path,
-            &st,
-            &format!("m.{}", s.name),
-            &s.shape,
-        )?);
-        opt.v[s.range.clone()].copy_from_slice(&tensor_f32(
-            path,
-            &st,
-            &format!("v.{}", s.name),
-            &s.shape,
-        )?);
+        let fill = |prefix: &str, into: &mut [f32]| -> Result<(), TrainError> {
+            into[s.range.clone()].copy_from_slice(&tensor_f32(
+                path,
+                &st,
+                &format!("{prefix}.{}", s.name),
+                &s.shape,
+            )?);
+            Ok(())
+        };
+        fill("m", &mut opt.m)?;
+        fill("v", &mut opt.v)?;
+        if let Some(p) = params.as_mut() {
+            fill("p", p)?;
+        }
     }
     let seconds = meta
         .get("seconds")
@@ -288,5 +302,9 @@ pub fn read_optimizer(
             key: "seconds",
             reason: "missing or not a number".into(),
         })?;
-    Ok((opt, seconds))
+    Ok(ResumeState {
+        opt,
+        seconds,
+        params,
+    })
 }

@@ -29,14 +29,17 @@ const CLIP_NORM: f32 = 1.0;
 #[derive(Clone, Debug)]
 pub struct TrainOptions {
     pub out: PathBuf,
-    /// The preset for a new model; on resume it must match the checkpoint's if given.
-    pub preset: Option<Preset>,
-    pub untied_head: bool,
+    /// The shape of a new model and its name (a preset's, or "custom"); on resume
+    /// it must match the checkpoint's if given.
+    pub shape: Option<(ModelDims, String)>,
     /// Train until this step count (including steps of a resumed checkpoint).
     pub steps: u64,
     /// Stop after this much training wall time (including a resumed run's).
     pub seconds: Option<f64>,
     pub resume: Option<PathBuf>,
+    /// Start from this trained checkpoint's parameters, with a fresh optimizer and
+    /// schedule (fine-tuning); its shape must match `shape` if that is given.
+    pub from: Option<PathBuf>,
     pub batch: usize,
     pub seq_len: usize,
     pub lr: f32,
@@ -51,9 +54,16 @@ pub struct TrainSummary {
     pub steps: u64,
     /// Wall time of this run's training loop.
     pub seconds: f64,
-    /// Mean training loss (nats per byte) over the last ≤ 10 steps.
-    pub final_train_loss_nats: f64,
+    /// Mean training loss (bits per byte) over the last ≤ 10 steps.
+    pub final_train_bits_per_byte: f64,
     pub heldout_bits_per_byte: Option<f64>,
+    /// The step whose parameters the checkpoint holds: the one with the best held-out
+    /// bits per byte (the last step when nothing is held out).
+    pub checkpoint_step: u64,
+    /// Held-out bits per byte of the checkpoint's parameters.
+    pub checkpoint_heldout_bits_per_byte: Option<f64>,
+    /// Held-out loss rose while training loss fell (the model began to memorise).
+    pub overfitting_seen: bool,
     /// Training bytes (batch × sequence length) per second of this run.
     pub bytes_per_second: f64,
     pub interrupted: bool,
@@ -144,7 +154,8 @@ impl Workers {
     }
 }
 
-/// Where a model starts: fresh from the preset, or from a checkpoint.
+/// Where a model starts: fresh from the shape, from a trained checkpoint, or where a
+/// run stopped.
 struct Start {
     preset_name: String,
     layout: Layout,
@@ -152,59 +163,96 @@ struct Start {
     opt: AdamW,
     seconds_before: f64,
     curve: Vec<CurvePoint>,
+    /// The held-out figure of the checkpoint a resumed run starts from.
+    best: Option<Best>,
 }
 
 fn start(opts: &TrainOptions) -> Result<Start, TrainError> {
-    let Some(resume) = &opts.resume else {
-        let preset = opts.preset.unwrap_or(Preset::Small);
-        let dims = ModelDims {
-            tied: !opts.untied_head,
-            ..preset.dims()
-        };
-        let layout = Layout::new(dims);
-        let params = init_params(&layout, &mut rand::rngs::StdRng::seed_from_u64(opts.seed));
+    let fresh = |preset_name: String, layout: Layout, params: Vec<f32>| {
         let opt = AdamW::new(&layout, DEFAULT_SETTINGS);
-        return Ok(Start {
-            preset_name: preset.name().into(),
+        Start {
+            preset_name,
             layout,
             params,
             opt,
             seconds_before: 0.0,
             curve: Vec::new(),
-        });
+            best: None,
+        }
     };
-    let ckpt = read_checkpoint(resume)?;
-    if let Some(p) = opts.preset {
-        if p.name() != ckpt.config {
-            return Err(TrainError::InvalidOption {
-                option: "--config",
-                reason: format!(
-                    "{p} differs from the checkpoint {}'s config {:?}",
-                    resume.display(),
-                    ckpt.config
-                ),
-            });
+    let check_shape = |found: ModelDims, option: &'static str, path: &PathBuf| match &opts.shape {
+        Some((dims, name)) if *dims != found => Err(TrainError::InvalidOption {
+            option,
+            reason: format!(
+                "the shape asked for ({name}: {dims}) differs from {}'s ({found}); \
+                     leave out --config and --shape to take the checkpoint's",
+                path.display()
+            ),
+        }),
+        _ => Ok(()),
+    };
+    match (&opts.resume, &opts.from) {
+        (Some(_), Some(_)) => Err(TrainError::InvalidOption {
+            option: "--from",
+            reason: "give either --from (a new run from trained weights) or --resume (go on \
+                     with a stopped run), not both"
+                .into(),
+        }),
+        (None, None) => {
+            let (dims, name) = opts
+                .shape
+                .clone()
+                .unwrap_or_else(|| (Preset::Small.dims(), Preset::Small.name().into()));
+            let layout = Layout::new(dims);
+            let params = init_params(&layout, &mut rand::rngs::StdRng::seed_from_u64(opts.seed));
+            Ok(fresh(name, layout, params))
+        }
+        (None, Some(from)) => {
+            let ckpt = read_checkpoint(from)?;
+            check_shape(ckpt.dims, "--from", from)?;
+            Ok(fresh(ckpt.config, Layout::new(ckpt.dims), ckpt.params))
+        }
+        (Some(resume), None) => {
+            let ckpt = read_checkpoint(resume)?;
+            check_shape(ckpt.dims, "--resume", resume)?;
+            let layout = Layout::new(ckpt.dims);
+            let opt_path = optimizer_path(resume);
+            let state = read_optimizer(&opt_path, &layout, DEFAULT_SETTINGS)?;
+            let params = match state.params {
+                Some(p) => p,
+                None if state.opt.step == ckpt.step => ckpt.params,
+                None => {
+                    return Err(TrainError::Metadata {
+                        path: opt_path,
+                        key: "step",
+                        reason: format!(
+                            "{} but the checkpoint is at step {}",
+                            state.opt.step, ckpt.step
+                        ),
+                    })
+                }
+            };
+            let curve = read_csv(&with_suffix(resume, ".loss.csv"), state.opt.step)?;
+            // The checkpoint's own held-out figure, so a worse one later does not replace it.
+            let best = curve
+                .iter()
+                .position(|p| p.step == ckpt.step && p.heldout_bpb.is_some())
+                .map(|at| Best {
+                    step: ckpt.step,
+                    heldout: curve[at].heldout_bpb.unwrap_or(f64::INFINITY),
+                    train_bits: recent_train_bits(&curve[..=at], 100),
+                });
+            Ok(Start {
+                preset_name: ckpt.config,
+                layout,
+                params,
+                opt: state.opt,
+                seconds_before: state.seconds,
+                curve,
+                best,
+            })
         }
     }
-    let layout = Layout::new(ckpt.dims);
-    let opt_path = optimizer_path(resume);
-    let (opt, seconds_before) = read_optimizer(&opt_path, &layout, DEFAULT_SETTINGS)?;
-    if opt.step != ckpt.step {
-        return Err(TrainError::Metadata {
-            path: opt_path,
-            key: "step",
-            reason: format!("{} but the checkpoint is at step {}", opt.step, ckpt.step),
-        });
-    }
-    let curve = read_csv(&with_suffix(resume, ".loss.csv"), ckpt.step)?;
-    Ok(Start {
-        preset_name: ckpt.config,
-        layout,
-        params: ckpt.params,
-        opt,
-        seconds_before,
-        curve,
-    })
 }
 
 fn check_options(opts: &TrainOptions) -> Result<(), TrainError> {
@@ -214,6 +262,9 @@ fn check_options(opts: &TrainOptions) -> Result<(), TrainError> {
             reason: reason.into(),
         })
     };
+    if opts.steps == 0 {
+        return bad("--steps", "must be at least 1");
+    }
     if opts.batch == 0 {
         return bad("--batch", "must be at least 1");
     }
@@ -235,9 +286,83 @@ fn check_options(opts: &TrainOptions) -> Result<(), TrainError> {
     Ok(())
 }
 
+/// Held-out bits per byte this much above the best, while the training loss is below
+/// what it was at the best, is taken as memorising (common practice, no source).
+const OVERFIT_MARGIN: f64 = 1.02;
+
+/// The best held-out figure so far and what the training loss was then.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Best {
+    step: u64,
+    heldout: f64,
+    train_bits: f64,
+}
+
+/// What a new held-out figure means for the checkpoint.
+#[derive(Debug, PartialEq)]
+enum Verdict {
+    /// The best so far: keep these parameters.
+    Best,
+    NotBetter,
+    /// Held-out loss rose while training loss fell (said once per run).
+    Memorising(Best),
+}
+
+/// Follows the held-out figures of a run.
+#[derive(Default)]
+struct HeldoutTracker {
+    best: Option<Best>,
+    warned: bool,
+}
+
+impl HeldoutTracker {
+    fn record(&mut self, step: u64, heldout: f64, train_bits: f64) -> Verdict {
+        match self.best {
+            Some(b) if heldout >= b.heldout => {
+                if !self.warned && heldout > b.heldout * OVERFIT_MARGIN && train_bits < b.train_bits
+                {
+                    self.warned = true;
+                    Verdict::Memorising(b)
+                } else {
+                    Verdict::NotBetter
+                }
+            }
+            _ => {
+                self.best = Some(Best {
+                    step,
+                    heldout,
+                    train_bits,
+                });
+                Verdict::Best
+            }
+        }
+    }
+}
+
+/// Mean training loss in bits per byte over the last ≤ `n` steps of `curve`.
+fn recent_train_bits(curve: &[CurvePoint], n: usize) -> f64 {
+    let tail: Vec<f64> = curve.iter().rev().take(n).map(|p| p.train_nats).collect();
+    if tail.is_empty() {
+        return f64::NAN;
+    }
+    tail.iter().sum::<f64>() / tail.len() as f64 / std::f64::consts::LN_2
+}
+
+/// "12:34" for a number of seconds.
+fn clock(seconds: f64) -> String {
+    let s = seconds.max(0.0).round() as u64;
+    if s >= 3600 {
+        format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60)
+    } else {
+        format!("{}:{:02}", s / 60, s % 60)
+    }
+}
+
 /// Trains on `corpus` until `opts.steps`, `opts.seconds` or `stop()` (asked before
-/// each step), saving the checkpoint, optimizer state and loss curve every
-/// `checkpoint_every` steps and at the end.
+/// each step). Every `checkpoint_every` steps and at the end it saves the resume state
+/// (latest parameters and optimizer) and the loss curve; the checkpoint at `opts.out`
+/// holds the parameters with the best held-out bits per byte seen (the latest ones when
+/// nothing is held out), written whenever a held-out evaluation improves on it.
 pub fn train(
     corpus: &Corpus,
     opts: &TrainOptions,
@@ -251,6 +376,7 @@ pub fn train(
         mut opt,
         seconds_before,
         mut curve,
+        best,
     } = start(opts)?;
     let window = opts.seq_len + 1;
     // Fail before any work if no window fits.
@@ -264,6 +390,20 @@ pub fn train(
         with_suffix(&opts.out, ".loss.csv"),
         with_suffix(&opts.out, ".loss.svg"),
     );
+    // Fail before any work if the output folder cannot take a file.
+    let folder = match paths.0.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_owned(),
+        _ => PathBuf::from("."),
+    };
+    if !folder.is_dir() {
+        return Err(TrainError::WriteFile {
+            path: paths.0.clone(),
+            source: std::io::Error::new(
+                std::io::ErrorKind::NotFound,
+                format!("the folder {} does not exist", folder.display()),
+            ),
+        });
+    }
     let start_step = opt.step;
     let bar = if opts.show_progress {
         ProgressBar::with_draw_target(Some(opts.steps), ProgressDrawTarget::stderr())
@@ -277,15 +417,43 @@ pub fn train(
     bar.set_position(start_step);
     let began = Instant::now();
     let mut last_heldout = curve.iter().rev().find_map(|p| p.heldout_bpb);
-    let save = |params: &[f32],
-                opt: &AdamW,
-                curve: &[CurvePoint],
-                seconds: f64|
+    let mut tracker = HeldoutTracker {
+        best,
+        warned: false,
+    };
+    let write_best =
+        |params: &[f32], step: u64| write_checkpoint(&paths.0, &layout, params, &preset_name, step);
+    let save_state = |params: &[f32],
+                      opt: &AdamW,
+                      curve: &[CurvePoint],
+                      seconds: f64|
      -> Result<(), TrainError> {
-        write_checkpoint(&paths.0, &layout, params, &preset_name, opt.step)?;
-        write_optimizer(&paths.1, &layout, opt, seconds)?;
+        write_optimizer(&paths.1, &layout, params, opt, seconds)?;
         write_csv(&paths.2, curve)?;
         write_svg(&paths.3, curve)
+    };
+    // Keeps the checkpoint if `heldout` is the best, and warns once when held-out loss
+    // rises while training loss falls.
+    let observe = |tracker: &mut HeldoutTracker,
+                   params: &[f32],
+                   step: u64,
+                   heldout: f64,
+                   train_bits: f64|
+     -> Result<(), TrainError> {
+        match tracker.record(step, heldout, train_bits) {
+            Verdict::Best => write_best(params, step),
+            Verdict::NotBetter => Ok(()),
+            Verdict::Memorising(b) => {
+                bar.println(format!(
+                    "warning: held-out {heldout:.3} bits/byte at step {step} is above the \
+                     best, {:.3} at step {}, while the training loss fell from {:.3} to \
+                     {train_bits:.3} bits/byte: the model is memorising its training text. \
+                     The checkpoint keeps step {}; more text, fewer steps or a lower --lr help.",
+                    b.heldout, b.step, b.train_bits, b.step
+                ));
+                Ok(())
+            }
+        }
     };
     let mut interrupted = false;
     while opt.step < opts.steps {
@@ -311,24 +479,41 @@ pub fn train(
         let heldout = (step % EVAL_EVERY == 0 || checkpoint_now)
             .then(|| workers.bits_per_byte(&params, &layout, &holdout))
             .flatten();
-        if heldout.is_some() {
-            last_heldout = heldout;
-        }
         curve.push(CurvePoint {
             step,
             train_nats: loss,
             heldout_bpb: heldout,
         });
+        if let Some(h) = heldout {
+            last_heldout = Some(h);
+            observe(
+                &mut tracker,
+                &params,
+                step,
+                h,
+                recent_train_bits(&curve, 100),
+            )?;
+        }
         let run_seconds = began.elapsed().as_secs_f64();
         let bytes_per_s =
             (step - start_step) as f64 * (opts.batch * opts.seq_len) as f64 / run_seconds.max(1e-9);
+        let per_step = run_seconds / (step - start_step) as f64;
+        let by_steps = (opts.steps - step) as f64 * per_step;
+        let by_seconds = opts
+            .seconds
+            .map_or(f64::INFINITY, |s| s - seconds_before - run_seconds);
         let held = last_heldout.map_or("-".to_string(), |v| format!("{v:.3}"));
         bar.set_message(format!(
-            "loss {loss:.3} nats, held-out {held} bits/byte, {bytes_per_s:.0} B/s"
+            "loss {:.3}, held-out {held} bits/byte, {bytes_per_s:.0} B/s, ETA {}",
+            loss / std::f64::consts::LN_2,
+            clock(by_steps.min(by_seconds))
         ));
         bar.set_position(step);
         if checkpoint_now {
-            save(&params, &opt, &curve, seconds_before + run_seconds)?;
+            if holdout.is_empty() {
+                write_best(&params, step)?;
+            }
+            save_state(&params, &opt, &curve, seconds_before + run_seconds)?;
         }
     }
     let run_seconds = began.elapsed().as_secs_f64();
@@ -336,19 +521,30 @@ pub fn train(
     if let (Some(last), Some(v)) = (curve.last_mut(), final_heldout) {
         last.heldout_bpb = Some(v);
     }
-    save(&params, &opt, &curve, seconds_before + run_seconds)?;
+    let train_bits = recent_train_bits(&curve, 10);
+    match final_heldout {
+        // Equal to the last evaluation when the loop ended on an evaluated step.
+        Some(h) if tracker.best.is_none_or(|b| b.step != opt.step) => observe(
+            &mut tracker,
+            &params,
+            opt.step,
+            h,
+            recent_train_bits(&curve, 100),
+        )?,
+        Some(_) => {}
+        None => write_best(&params, opt.step)?,
+    }
+    save_state(&params, &opt, &curve, seconds_before + run_seconds)?;
     bar.finish_and_clear();
-    let tail: Vec<f64> = curve.iter().rev().take(10).map(|p| p.train_nats).collect();
     let trained = opt.step - start_step;
     Ok(TrainSummary {
         steps: opt.step,
         seconds: run_seconds,
-        final_train_loss_nats: if tail.is_empty() {
-            f64::NAN
-        } else {
-            tail.iter().sum::<f64>() / tail.len() as f64
-        },
+        final_train_bits_per_byte: train_bits,
         heldout_bits_per_byte: final_heldout,
+        checkpoint_step: tracker.best.map_or(opt.step, |b| b.step),
+        checkpoint_heldout_bits_per_byte: tracker.best.map(|b| b.heldout),
+        overfitting_seen: tracker.warned,
         bytes_per_second: trained as f64 * (opts.batch * opts.seq_len) as f64
             / run_seconds.max(1e-9),
         interrupted,
@@ -357,4 +553,34 @@ pub fn train(
         loss_csv: paths.2.clone(),
         loss_svg: paths.3.clone(),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn tracker_keeps_the_best_and_warns_once_on_memorising() {
+        let mut t = HeldoutTracker::default();
+        assert_eq!(t.record(100, 2.0, 3.0), Verdict::Best);
+        assert_eq!(t.record(200, 1.5, 2.0), Verdict::Best);
+        // Slightly worse, within the margin: not yet a warning.
+        assert_eq!(t.record(300, 1.52, 1.5), Verdict::NotBetter);
+        let best = Best {
+            step: 200,
+            heldout: 1.5,
+            train_bits: 2.0,
+        };
+        assert_eq!(t.record(400, 1.7, 1.0), Verdict::Memorising(best));
+        assert_eq!(t.record(500, 1.9, 0.5), Verdict::NotBetter);
+        assert_eq!(t.record(600, 1.4, 0.4), Verdict::Best);
+        assert_eq!(t.best.map(|b| b.step), Some(600));
+    }
+
+    #[test]
+    fn clock_reads_minutes_and_hours() {
+        assert_eq!(clock(75.4), "1:15");
+        assert_eq!(clock(3725.0), "1:02:05");
+        assert_eq!(clock(-3.0), "0:00");
+    }
 }

@@ -8,7 +8,7 @@ use safetensors::SafeTensors;
 
 use super::batches::Corpus;
 use super::checkpoint_file::{optimizer_path, read_checkpoint};
-use super::config::Preset;
+use super::config::{ModelDims, Preset};
 use super::training_run::{train, TrainOptions};
 
 fn text() -> Vec<u8> {
@@ -18,11 +18,11 @@ fn text() -> Vec<u8> {
 fn options(out: &Path, steps: u64) -> TrainOptions {
     TrainOptions {
         out: out.to_owned(),
-        preset: Some(Preset::Tiny),
-        untied_head: false,
+        shape: Some((Preset::Tiny.dims(), "tiny".into())),
         steps,
         seconds: None,
         resume: None,
+        from: None,
         batch: 8,
         seq_len: 32,
         lr: 1e-2,
@@ -36,16 +36,16 @@ fn options(out: &Path, steps: u64) -> TrainOptions {
 #[test]
 fn loss_falls_on_repetitive_text() {
     let dir = tempfile::tempdir().unwrap();
-    let corpus = Corpus::from_files(vec![text()], 0.05).unwrap();
+    let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let out = dir.path().join("m.safetensors");
     let s = train(&corpus, &options(&out, 300), &|| false).unwrap();
     // Start: ≈ ln 256 = 5.55 nats (uniform guess over bytes). The text has 12
     // distinct bytes and a 48-byte period, so a model that learned anything beyond
     // byte frequencies is far below the order-0 entropy (≈ 3.2 bits = 2.2 nats).
     assert!(
-        s.final_train_loss_nats < 1.5,
+        s.final_train_bits_per_byte < 1.5 / std::f64::consts::LN_2,
         "final loss {}",
-        s.final_train_loss_nats
+        s.final_train_bits_per_byte
     );
     let held = s.heldout_bits_per_byte.unwrap();
     assert!(held < 2.5, "held-out {held} bits per byte");
@@ -57,10 +57,14 @@ fn loss_falls_on_repetitive_text() {
 #[test]
 fn checkpoint_follows_the_schema() {
     let dir = tempfile::tempdir().unwrap();
-    let corpus = Corpus::from_files(vec![text()], 0.05).unwrap();
+    let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let out = dir.path().join("m.safetensors");
+    let untied = ModelDims {
+        tied: false,
+        ..Preset::Tiny.dims()
+    };
     let opts = TrainOptions {
-        untied_head: true,
+        shape: Some((untied, "tiny".into())),
         ..options(&out, 3)
     };
     train(&corpus, &opts, &|| false).unwrap();
@@ -111,7 +115,7 @@ fn checkpoint_follows_the_schema() {
 #[test]
 fn resume_continues_from_the_saved_step() {
     let dir = tempfile::tempdir().unwrap();
-    let corpus = Corpus::from_files(vec![text()], 0.05).unwrap();
+    let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let never = || false;
     let straight = dir.path().join("straight.safetensors");
     train(&corpus, &options(&straight, 30), &never).unwrap();
@@ -127,7 +131,7 @@ fn resume_continues_from_the_saved_step() {
     assert_eq!(first.steps, 12);
     let resumed = TrainOptions {
         resume: Some(split.clone()),
-        preset: None,
+        shape: None,
         ..options(&split, 30)
     };
     let s = train(&corpus, &resumed, &never).unwrap();
@@ -146,4 +150,74 @@ fn resume_continues_from_the_saved_step() {
     );
     let curve = std::fs::read_to_string(dir.path().join("split.safetensors.loss.csv")).unwrap();
     assert_eq!(curve.lines().count(), 31, "header + one row per step");
+}
+
+#[test]
+fn fine_tuning_starts_from_the_trained_weights_with_a_fresh_schedule() {
+    let dir = tempfile::tempdir().unwrap();
+    let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
+    let never = || false;
+    let base = dir.path().join("base.safetensors");
+    train(&corpus, &options(&base, 200), &never).unwrap();
+    // A new text of the same words; the fine-tuned run counts its steps from 0.
+    let other = Corpus::unweighted(
+        vec![b"the dog sat on the mat. the cat sat on the log. ".repeat(60)],
+        0.05,
+    )
+    .unwrap();
+    let tuned = dir.path().join("tuned.safetensors");
+    let from = TrainOptions {
+        from: Some(base.clone()),
+        shape: None,
+        ..options(&tuned, 20)
+    };
+    let s = train(&other, &from, &never).unwrap();
+    assert_eq!(s.steps, 20);
+    let fresh = dir.path().join("fresh.safetensors");
+    train(&other, &options(&fresh, 20), &never).unwrap();
+    // The first step's loss: a trained model already knows the shared words and letters,
+    // a fresh one starts near ln 256 = 5.55 nats (a uniform guess over bytes).
+    let first_loss = |p: &Path| {
+        let csv = std::fs::read_to_string(format!("{}.loss.csv", p.display())).unwrap();
+        let row = csv.lines().nth(1).unwrap().to_string();
+        row.split(',').nth(1).unwrap().parse::<f64>().unwrap()
+    };
+    assert!(
+        first_loss(&tuned) < first_loss(&fresh) - 1.0,
+        "tuned {} fresh {}",
+        first_loss(&tuned),
+        first_loss(&fresh)
+    );
+    // Another shape is refused, naming both.
+    let small = TrainOptions {
+        from: Some(base.clone()),
+        shape: Some((Preset::Small.dims(), "small".into())),
+        ..options(&dir.path().join("x.safetensors"), 5)
+    };
+    let err = train(&other, &small, &never).err().unwrap().to_string();
+    assert!(err.contains("d=96") && err.contains("d=16"), "{err}");
+}
+
+#[test]
+fn the_checkpoint_holds_the_best_held_out_step() {
+    let dir = tempfile::tempdir().unwrap();
+    // Held out: the tail, a different text from the training part, so held-out loss
+    // need not follow the training loss.
+    let mut bytes = text();
+    bytes.extend(b"quick brown foxes jump over lazy dogs. ".repeat(8));
+    let corpus = Corpus::unweighted(vec![bytes], 0.1).unwrap();
+    let out = dir.path().join("m.safetensors");
+    let s = train(&corpus, &options(&out, 400), &|| false).unwrap();
+    let csv = std::fs::read_to_string(dir.path().join("m.safetensors.loss.csv")).unwrap();
+    let (best_step, best) = csv
+        .lines()
+        .skip(1)
+        .filter_map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            Some((f[0].parse::<u64>().ok()?, f.get(3)?.parse::<f64>().ok()?))
+        })
+        .fold((0, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
+    assert_eq!(s.checkpoint_step, best_step);
+    assert_eq!(read_checkpoint(&out).unwrap().step, best_step);
+    assert!((s.checkpoint_heldout_bits_per_byte.unwrap() - best).abs() < 1e-4);
 }
