@@ -8,7 +8,8 @@ hash of its text says so (about 1 in 40), so the held-out part spans the whole s
 its alphabetical tail. Sources are capped in bytes (a deterministic sample of paragraphs) so
 that no one kind of text dominates: breadth over size.
 
-Writes data/general/train/<source>.txt (rebuilt, not committed) and
+Writes data/general/train/<source>.txt and their concatenation data/general/train/all.txt
+(the word counts of the frequency baselines; rebuilt, not committed) and
 data/general/heldout/<source>.txt (the first HELDOUT_BYTES of each held-out part, committed),
 and prints a table of sources, bytes and licences for data/general/README.md.
 
@@ -235,6 +236,7 @@ def main():
     os.makedirs(HELDOUT_DIR, exist_ok=True)
     seen = set()
     rows = []
+    everything = []
     for name, paragraphs in sources.items():
         kept = []
         for p in paragraphs:
@@ -252,6 +254,7 @@ def main():
             keep_fraction = cap / total
             train = [p for p in train if int.from_bytes(digest(p)[1:5], "big") / 2**32 < keep_fraction]
         train_text = "\n".join(train) + "\n"
+        everything.append(train_text)
         held_text = ("\n".join(held) + "\n").encode()[:HELDOUT_BYTES]
         held_text = held_text[: held_text.rfind(b"\n") + 1]
         with open(os.path.join(TRAIN_DIR, f"{name}.txt"), "w", encoding="utf-8") as f:
@@ -260,6 +263,8 @@ def main():
             f.write(held_text)
         package, licence = LICENCES[name]
         rows.append((name, package, licence, len(train_text.encode()), len(held_text)))
+    with open(os.path.join(TRAIN_DIR, "all.txt"), "w", encoding="utf-8") as f:
+        f.write("".join(everything))
     print("| source | package | licence | training bytes | held-out bytes |")
     print("|---|---|---|---|---|")
     for name, package, licence, t, h in rows:

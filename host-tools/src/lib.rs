@@ -1,6 +1,7 @@
 //! The workstation side of inkling: the `inkling` command's pieces.
 
 pub mod commands;
+pub mod compressors;
 pub mod cost_model;
 pub mod error;
 pub mod keystroke_savings;

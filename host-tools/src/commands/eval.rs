@@ -1,6 +1,7 @@
-//! `inkling eval`: bits per byte of a text, optionally beside another model, and with
-//! `--savings` the keystroke savings of word completion on it against a word-frequency
-//! baseline.
+//! `inkling eval`: bits per byte of one or more texts beside `xz -9e` and `gzip -9` on the
+//! same bytes, optionally beside another model; with `--savings` the keystroke savings of word
+//! completion against a word-frequency baseline, and with `--keypad` 12-key entry's
+//! first-word rate and keystrokes per character against a frequency-ordered dictionary.
 //!
 //! Keystroke savings (Trnka & McCoy 2008, "Evaluating Word Prediction: Framing Keystroke
 //! Savings", ACL-08): KS = (keys letter by letter − keys with prediction) / keys letter by
@@ -15,9 +16,10 @@ use indicatif::{ProgressBar, ProgressStyle};
 use inkling_core::session::DEFAULT_MAX_STEPS;
 
 use super::suggest::MAX_COUNT;
+use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
 use crate::keystroke_savings::simulation::whole_words;
-use crate::keystroke_savings::{compare, Comparison, FrequencyBaseline};
+use crate::keystroke_savings::{compare, keypad_entry, Comparison, FrequencyBaseline, KeypadCount};
 use crate::model_file::ModelFile;
 use crate::text_scoring::bits_per_byte;
 
@@ -26,10 +28,10 @@ use crate::text_scoring::bits_per_byte;
 pub struct EvalArgs {
     /// An image (int8 engine) or a checkpoint (float engine).
     pub model: PathBuf,
-    /// The text file to score.
-    #[arg(long)]
-    pub text: PathBuf,
-    /// A second model scored on the same text (e.g. a checkpoint against its image).
+    /// A text file to score; give it several times for a table over several texts.
+    #[arg(long, required = true)]
+    pub text: Vec<PathBuf>,
+    /// A second model scored on the same texts (e.g. a checkpoint against its image).
     #[arg(long)]
     pub against: Option<PathBuf>,
     /// Print one JSON object.
@@ -39,19 +41,24 @@ pub struct EvalArgs {
     /// and report the keystroke savings of the model and of the baseline.
     #[arg(long)]
     pub savings: bool,
+    /// Also enter each word of the texts as ITU-T E.161 digits: how often the model offers
+    /// the intended word first, and the keystrokes per character (MacKenzie 2002) beside a
+    /// dictionary ordered by the frequency of words in --baseline-corpus.
+    #[arg(long)]
+    pub keypad: bool,
     /// Suggestions shown at each key (for --savings), at most 16.
     #[arg(long, default_value_t = 3, requires = "savings")]
     pub count: usize,
-    /// The word-frequency source of the baseline (for --savings): a text other than --text,
-    /// e.g. the training text. It offers its most frequent words that fit the typed prefix.
-    #[arg(long, requires = "savings")]
+    /// The word-frequency source of the baselines (for --savings and --keypad): a text
+    /// other than --text, e.g. the training text.
+    #[arg(long)]
     pub baseline_corpus: Option<PathBuf>,
-    /// Bytes of --text to type for --savings (cut back to a word boundary): the model takes
-    /// a search, up to --max-steps engine steps, per key.
-    #[arg(long, default_value_t = 5000, requires = "savings")]
+    /// Bytes of each text to type for --savings and --keypad (cut back to a word
+    /// boundary): the model takes a search, up to --max-steps engine steps, per key or word.
+    #[arg(long, default_value_t = 5000)]
     pub max_bytes: usize,
-    /// Engine steps each search may take (for --savings).
-    #[arg(long, default_value_t = DEFAULT_MAX_STEPS, requires = "savings")]
+    /// Engine steps each search may take (for --savings and --keypad).
+    #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
 }
 
@@ -71,8 +78,12 @@ fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), H
     Ok((bpb, file.engine_name()))
 }
 
-/// The keystroke savings of `args.model` and of the baseline on the start of `text`.
-fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
+/// Checks the options of `--savings` and `--keypad` before any work, and reads the
+/// baseline corpus.
+fn baseline(args: &EvalArgs) -> Result<Option<FrequencyBaseline>, HostError> {
+    if !args.savings && !args.keypad {
+        return Ok(None);
+    }
     if args.count > MAX_COUNT {
         return Err(HostError::Usage(format!(
             "--count {} is more than the {MAX_COUNT} a session holds",
@@ -81,8 +92,8 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
     }
     let corpus_path = args.baseline_corpus.as_ref().ok_or_else(|| {
         HostError::Usage(
-            "--savings needs --baseline-corpus FILE: the baseline's word counts must come \
-             from a text other than --text (e.g. the training text)"
+            "--savings and --keypad need --baseline-corpus FILE: the baseline's word counts \
+             must come from a text other than --text (e.g. the training text)"
                 .into(),
         )
     })?;
@@ -90,24 +101,40 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
         (Ok(a), Ok(b)) => a == b,
         _ => false,
     };
-    if same(corpus_path, &args.text) {
+    if let Some(text) = args.text.iter().find(|t| same(corpus_path, t)) {
         return Err(HostError::Usage(format!(
-            "--baseline-corpus {}: is the --text file itself; a baseline that has counted \
+            "--baseline-corpus {}: is the --text file {} itself; a baseline that has counted \
              the text it is scored on would be cheating",
-            corpus_path.display()
+            corpus_path.display(),
+            text.display()
         )));
     }
     let corpus = std::fs::read(corpus_path).map_err(HostError::io(corpus_path))?;
-    let mut baseline = FrequencyBaseline::from_corpus(&corpus);
+    Ok(Some(FrequencyBaseline::from_corpus(&corpus)))
+}
+
+fn progress_bar(label: &str, len: usize) -> ProgressBar {
+    let bar = ProgressBar::new(len as u64);
+    bar.set_style(
+        ProgressStyle::with_template(&format!(
+            "{label} [{{bar:30}}] {{pos}}/{{len}} bytes ({{eta}})"
+        ))
+        .unwrap_or_else(|_| ProgressStyle::default_bar()),
+    );
+    bar
+}
+
+/// The keystroke savings of `args.model` and of the baseline on the start of `text`.
+fn savings(
+    args: &EvalArgs,
+    baseline: &mut FrequencyBaseline,
+    text: &[u8],
+) -> Result<Comparison, HostError> {
     let text = whole_words(text, args.max_bytes);
     let file = ModelFile::open(&args.model)?;
-    let bar = ProgressBar::new(text.len() as u64);
-    bar.set_style(
-        ProgressStyle::with_template("keystrokes [{bar:30}] {pos}/{len} bytes ({eta})")
-            .unwrap_or_else(|_| ProgressStyle::default_bar()),
-    );
+    let bar = progress_bar("keystrokes", text.len());
     let found = file.with_weights(|w| {
-        compare(w, &mut baseline, text, args.count, args.max_steps, |at| {
+        compare(w, baseline, text, args.count, args.max_steps, |at| {
             bar.set_position(at as u64)
         })
     });
@@ -118,49 +145,85 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
     })
 }
 
-/// Runs `inkling eval`.
-pub fn run(args: &EvalArgs) -> Result<(), HostError> {
-    let text = std::fs::read(&args.text).map_err(HostError::io(&args.text))?;
-    if text.len() < 2 {
-        return Err(HostError::Usage(format!(
-            "{}: needs at least 2 bytes to score",
-            args.text.display()
-        )));
-    }
-    let (bpb, engine) = score(&args.model, &text, "model")?;
-    let other = match &args.against {
-        Some(p) => Some((p, score(p, &text, "against")?)),
-        None => None,
-    };
-    let savings = args.savings.then(|| savings(args, &text)).transpose()?;
-    if args.json {
+/// 12-key entry of the start of `text` with the model and with the baseline's dictionary.
+fn keypad(
+    args: &EvalArgs,
+    baseline: &FrequencyBaseline,
+    text: &[u8],
+) -> Result<(KeypadCount, KeypadCount), HostError> {
+    let text = whole_words(text, args.max_bytes);
+    let file = ModelFile::open(&args.model)?;
+    let bar = progress_bar("12-key", text.len());
+    let found = file.with_weights(|w| {
+        keypad_entry(w, baseline, text, args.max_steps, |at| {
+            bar.set_position(at as u64)
+        })
+    });
+    bar.finish_and_clear();
+    found.map_err(|source| HostError::Image {
+        path: args.model.clone(),
+        source,
+    })
+}
+
+/// Everything measured on one text.
+struct TextReport {
+    path: PathBuf,
+    bytes: usize,
+    bits_per_byte: f64,
+    engine: &'static str,
+    against: Option<(f64, &'static str)>,
+    /// `xz -9e` and `gzip -9`, in the order of [`YARDSTICKS`].
+    compressors: [Option<f64>; 2],
+    savings: Option<Comparison>,
+    keypad: Option<(KeypadCount, KeypadCount)>,
+}
+
+impl TextReport {
+    /// The JSON object of one text (the keys of a one-text run).
+    fn to_json(&self, args: &EvalArgs) -> serde_json::Value {
         let mut v = serde_json::json!({
             "model": args.model,
-            "engine": engine,
-            "text": args.text,
-            "bytes": text.len(),
-            "bits_per_byte": bpb,
+            "engine": self.engine,
+            "text": self.path,
+            "bytes": self.bytes,
+            "bits_per_byte": self.bits_per_byte,
+            "xz_bits_per_byte": self.compressors[0],
+            "gzip_bits_per_byte": self.compressors[1],
         });
-        if let Some((p, (obpb, oengine))) = &other {
+        if let (Some(p), Some((obpb, oengine))) = (&args.against, self.against) {
             v["against"] = serde_json::json!({
                 "model": p, "engine": oengine, "bits_per_byte": obpb,
             });
-            v["difference"] = serde_json::json!(bpb - obpb);
-            v["relative_difference"] = serde_json::json!((bpb - obpb) / obpb);
+            v["difference"] = serde_json::json!(self.bits_per_byte - obpb);
+            v["relative_difference"] = serde_json::json!((self.bits_per_byte - obpb) / obpb);
         }
-        if let (Some(found), Some(corpus)) = (&savings, &args.baseline_corpus) {
+        if let (Some(found), Some(corpus)) = (&self.savings, &args.baseline_corpus) {
             let mut ks = found.to_json();
             ks["baseline_corpus"] = serde_json::json!(corpus);
             v["keystroke_savings"] = ks;
         }
-        println!("{v}");
-    } else {
+        if let (Some((model, dictionary)), Some(corpus)) = (&self.keypad, &args.baseline_corpus) {
+            v["keypad"] = serde_json::json!({
+                "model": model.to_json(),
+                "dictionary": dictionary.to_json(),
+                "baseline_corpus": corpus,
+            });
+        }
+        v
+    }
+
+    /// Today's lines for a one-text run.
+    fn print(&self, args: &EvalArgs) {
         println!(
-            "{} ({engine}): {bpb:.4} bits per byte on {} bytes",
+            "{} ({}): {:.4} bits per byte on {} bytes",
             args.model.display(),
-            text.len()
+            self.engine,
+            self.bits_per_byte,
+            self.bytes
         );
-        if let Some((p, (obpb, oengine))) = &other {
+        if let (Some(p), Some((obpb, oengine))) = (&args.against, self.against) {
+            let bpb = self.bits_per_byte;
             println!("{} ({oengine}): {obpb:.4} bits per byte", p.display());
             println!(
                 "difference: {:+.4} bits per byte ({:+.2}%)",
@@ -168,9 +231,140 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
                 100.0 * (bpb - obpb) / obpb
             );
         }
-        if let Some(found) = &savings {
+        let shown = |v: Option<f64>| v.map_or("-".to_string(), |v| format!("{v:.4}"));
+        println!(
+            "on the same bytes: xz -9e {}, gzip -9 {} bits per byte",
+            shown(self.compressors[0]),
+            shown(self.compressors[1])
+        );
+        if let Some(found) = &self.savings {
             found.print();
         }
+        if let Some((model, dictionary)) = &self.keypad {
+            println!(
+                "12-key entry, {} words: offered first {:.1}% (dictionary {:.1}%), \
+                 keystrokes per character {:.4} (dictionary {:.4})",
+                model.words,
+                100.0 * model.first_rate(),
+                100.0 * dictionary.first_rate(),
+                model.kspc(),
+                dictionary.kspc()
+            );
+        }
+    }
+}
+
+/// The table of a run over several texts.
+fn print_table(args: &EvalArgs, reports: &[TextReport]) {
+    let shown = |v: Option<f64>| v.map_or("-".to_string(), |v| format!("{v:.3}"));
+    let engine = reports.first().map_or("", |r| r.engine);
+    let mut header = format!("{:<36} {:>8} {:>8}", "text", "bytes", engine);
+    if let Some((_, oengine)) = reports.first().and_then(|r| r.against) {
+        header += &format!(" {oengine:>8}");
+    }
+    header += &format!(" {:>8} {:>8} {:>9}", "xz -9e", "gzip -9", "model/xz");
+    if args.savings {
+        header += &format!(" {:>8} {:>8}", "saved", "freq");
+    }
+    if args.keypad {
+        header += &format!(" {:>7} {:>7} {:>7} {:>7}", "first", "dict", "KSPC", "dict");
+    }
+    println!(
+        "{} (bits per byte; savings with {} suggestions)",
+        args.model.display(),
+        args.count
+    );
+    println!("{header}");
+    for r in reports {
+        let name = r.path.display().to_string();
+        let name = if name.len() > 36 {
+            format!("...{}", &name[name.len() - 33..])
+        } else {
+            name
+        };
+        let mut line = format!("{name:<36} {:>8} {:>8.3}", r.bytes, r.bits_per_byte);
+        if let Some((obpb, _)) = r.against {
+            line += &format!(" {obpb:>8.3}");
+        }
+        line += &format!(
+            " {:>8} {:>8} {:>9}",
+            shown(r.compressors[0]),
+            shown(r.compressors[1]),
+            shown(r.compressors[0].map(|xz| r.bits_per_byte / xz))
+        );
+        if let Some(c) = &r.savings {
+            line += &format!(
+                " {:>7.1}% {:>7.1}%",
+                100.0 * c.model.savings(true, false),
+                100.0 * c.baseline.savings(true, false)
+            );
+        }
+        if let Some((m, d)) = &r.keypad {
+            line += &format!(
+                " {:>6.1}% {:>6.1}% {:>7.3} {:>7.3}",
+                100.0 * m.first_rate(),
+                100.0 * d.first_rate(),
+                m.kspc(),
+                d.kspc()
+            );
+        }
+        println!("{line}");
+    }
+}
+
+/// Runs `inkling eval`.
+pub fn run(args: &EvalArgs) -> Result<(), HostError> {
+    let mut texts = Vec::with_capacity(args.text.len());
+    for path in &args.text {
+        let text = std::fs::read(path).map_err(HostError::io(path))?;
+        if text.len() < 2 {
+            return Err(HostError::Usage(format!(
+                "{}: needs at least 2 bytes to score",
+                path.display()
+            )));
+        }
+        texts.push(text);
+    }
+    let mut baseline = baseline(args)?;
+    let mut reports = Vec::with_capacity(texts.len());
+    for (path, text) in args.text.iter().zip(&texts) {
+        let (bits_per_byte, engine) = score(&args.model, text, "model")?;
+        let against = match &args.against {
+            Some(p) => Some(score(p, text, "against")?),
+            None => None,
+        };
+        let compressors =
+            YARDSTICKS.map(|(program, flags)| compressors::bits_per_byte(program, flags, text));
+        let savings = match (&mut baseline, args.savings) {
+            (Some(b), true) => Some(savings(args, b, text)?),
+            _ => None,
+        };
+        let keypad = match (&baseline, args.keypad) {
+            (Some(b), true) => Some(keypad(args, b, text)?),
+            _ => None,
+        };
+        reports.push(TextReport {
+            path: path.clone(),
+            bytes: text.len(),
+            bits_per_byte,
+            engine,
+            against,
+            compressors,
+            savings,
+            keypad,
+        });
+    }
+    match (&reports[..], args.json) {
+        ([one], true) => println!("{}", one.to_json(args)),
+        ([one], false) => one.print(args),
+        (all, true) => {
+            let texts: Vec<serde_json::Value> = all.iter().map(|r| r.to_json(args)).collect();
+            println!(
+                "{}",
+                serde_json::json!({ "model": args.model, "count": args.count, "texts": texts })
+            );
+        }
+        (all, false) => print_table(args, all),
     }
     Ok(())
 }

@@ -35,6 +35,28 @@ impl FrequencyBaseline {
         self.words.len()
     }
 
+    /// A 12-key dictionary: for each key sequence (as `digits` gives it for a word, `None`
+    /// for words it cannot spell), the corpus's words on it in lower case, counts of all
+    /// cases summed, most frequent first (ties: bytewise order).
+    pub fn by_digits(
+        &self,
+        digits: impl Fn(&[u8]) -> Option<Vec<u8>>,
+    ) -> HashMap<Vec<u8>, Vec<Vec<u8>>> {
+        let mut lower: HashMap<Vec<u8>, u64> = HashMap::new();
+        for (w, c) in &self.words {
+            *lower.entry(w.to_ascii_lowercase()).or_default() += c;
+        }
+        let mut ranked: Vec<(Vec<u8>, u64)> = lower.into_iter().collect();
+        ranked.sort_unstable_by(|a, b| b.1.cmp(&a.1).then_with(|| a.0.cmp(&b.0)));
+        let mut by: HashMap<Vec<u8>, Vec<Vec<u8>>> = HashMap::new();
+        for (w, _) in ranked {
+            if let Some(d) = digits(&w) {
+                by.entry(d).or_default().push(w);
+            }
+        }
+        by
+    }
+
     /// The `count` most frequent words starting with `prefix`, most frequent first.
     pub fn most_frequent(&self, prefix: &[u8], count: usize) -> Vec<Vec<u8>> {
         let start = self.words.partition_point(|(w, _)| w.as_slice() < prefix);

@@ -30,12 +30,14 @@
 
 pub mod comparison;
 pub mod frequency_baseline;
+pub mod keypad_entry;
 pub mod model_predictor;
 pub mod session_memory;
 pub mod simulation;
 
 pub use comparison::{compare, Comparison};
 pub use frequency_baseline::FrequencyBaseline;
+pub use keypad_entry::{keypad_entry, KeypadCount};
 pub use model_predictor::ModelPredictor;
 pub use session_memory::SessionMemory;
 pub use simulation::{simulate, simulate_with, KeyCount, Offer, Predictor};
