@@ -43,8 +43,8 @@ pub struct DemoArgs {
 /// The held-out texts the demo scores: never seen in training.
 const HELD_OUT: [(&str, &str); 2] = [
     (
-        "open text (King James Bible, held-out books)",
-        "data/open/kjv-heldout.txt",
+        "general English (held-out everyday example sentences)",
+        "data/general/heldout/wordnet-examples.txt",
     ),
     (
         "scenario text (hut wardens' pager messages)",
@@ -54,7 +54,7 @@ const HELD_OUT: [(&str, &str); 2] = [
 
 /// Prompts the demo model continues.
 const PROMPTS: [&str; 4] = [
-    "And the LORD said unto ",
+    "Thank you for the ",
     "Supplies for the hut ",
     "Path closed between ",
     "Weather: ",
