@@ -1,10 +1,9 @@
 //! The model shape of `inkling train`: a named preset, with any dimension replaced.
 
-use std::fmt;
-
 use inkling_core::Dims;
 use inkling_train::shapes::{MEDIUM, SMALL, TINY};
 
+/// A named model size; its dimensions are the trainer's named shapes.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum Preset {
     /// 1 block, D=16, I=32, N=4, K=4, R=2 (tests)
@@ -30,12 +29,6 @@ impl Preset {
             Preset::Small => "small",
             Preset::Medium => "medium",
         }
-    }
-}
-
-impl fmt::Display for Preset {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.name())
     }
 }
 
