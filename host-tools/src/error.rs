@@ -26,7 +26,7 @@ pub enum HostError {
     Checkpoint(#[from] inkling_quantize::QuantizeError),
     /// Training failed.
     #[error(transparent)]
-    Train(#[from] crate::train::TrainError),
+    Train(#[from] inkling_train::TrainError),
     /// The arguments do not make sense together.
     #[error("{0}")]
     Usage(String),

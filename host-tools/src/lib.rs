@@ -7,4 +7,3 @@ pub mod error;
 pub mod keystroke_savings;
 pub mod model_file;
 pub mod text_scoring;
-pub mod train;

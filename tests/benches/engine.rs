@@ -16,7 +16,7 @@ use inkling_core::engine::weights::Weights;
 use inkling_core::image::format::Role;
 use inkling_core::session::{SearchOptions, Session};
 use inkling_core::{Model, Scratch};
-use inkling_host::train::config::Preset;
+use inkling_host::commands::train::Preset;
 use inkling_tests::bench_models::preset_model;
 
 const TEXT: &[u8] = b"the quick brown fox jumps over the lazy dog; ";

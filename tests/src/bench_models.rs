@@ -3,10 +3,11 @@
 
 use std::path::Path;
 
-use inkling_host::train::config::Preset;
-use inkling_host::train::model_params::{init_params, Layout};
+use inkling_host::commands::train::Preset;
 use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions, FloatModel};
+use inkling_train::checkpoint_file::write_checkpoint;
+use inkling_train::model_params::{init_params, Layout};
 use rand::SeedableRng;
 
 /// A preset's float model and int8 image, from a seeded initialisation.
@@ -15,14 +16,7 @@ pub fn preset_model(preset: Preset, seed: u64, dir: &Path) -> (FloatModel, Vec<u
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let params: Vec<f32> = init_params(&layout, &mut rng);
     let path = dir.join(format!("{}.safetensors", preset.name()));
-    inkling_host::train::checkpoint_file::write_checkpoint(
-        &path,
-        &layout,
-        &params,
-        preset.name(),
-        0,
-    )
-    .expect("write the checkpoint");
+    write_checkpoint(&path, &layout, &params, preset.name(), 0).expect("write the checkpoint");
     let ck = Checkpoint::load(&path, &NameMap::identity()).expect("read the checkpoint back");
     let (image, _) = convert(&ck, &ConvertOptions::default()).expect("convert");
     (FloatModel::new(ck), image)

@@ -3,7 +3,7 @@
 
 use inkling_core::session::Session;
 use inkling_core::{Engine, Error, Model, Scratch};
-use inkling_host::train::config::Preset;
+use inkling_host::commands::train::Preset;
 use inkling_tests::bench_models::preset_model;
 use inkling_tests::inkling_cli::run_json;
 

@@ -4,20 +4,22 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rand::SeedableRng;
 use rayon::prelude::*;
 
-use super::adamw::{clip_global_norm, learning_rate, AdamW, DEFAULT_SETTINGS};
-use super::batches::Corpus;
-use super::checkpoint_file::{
+use crate::adamw::{clip_global_norm, learning_rate, AdamW, DEFAULT_SETTINGS};
+use crate::batches::Corpus;
+use crate::checkpoint_file::{
     optimizer_path, read_checkpoint, read_optimizer, write_checkpoint, write_optimizer,
 };
-use super::config::{ModelDims, Preset};
-use super::error::TrainError;
-use super::forward_backward::{backward, forward, Workspace};
-use super::loss_curve::{read_csv, with_suffix, write_csv, write_svg, CurvePoint};
-use super::model_params::{init_params, Layout};
+use inkling_core::Dims;
+
+use crate::error::TrainError;
+use crate::forward_backward::{backward, forward, Workspace};
+use crate::loss_curve::{read_csv, with_suffix, write_csv, write_svg, CurvePoint};
+use crate::model_params::{init_params, Layout};
+use crate::progress::{Memorising, Progress, StepReport};
+use crate::shapes::describe;
 
 /// Held-out evaluation reads at most this many windows (bounded time).
 pub const MAX_HOLDOUT_WINDOWS: usize = 64;
@@ -29,9 +31,9 @@ const CLIP_NORM: f32 = 1.0;
 #[derive(Clone, Debug)]
 pub struct TrainOptions {
     pub out: PathBuf,
-    /// The shape of a new model and its name (a preset's, or "custom"); on resume
-    /// it must match the checkpoint's if given.
-    pub shape: Option<(ModelDims, String)>,
+    /// The shape of a new model and its name (a preset's, or "custom"); required for a
+    /// new model; with `resume` or `from` it must match the checkpoint's if given.
+    pub shape: Option<(Dims, String)>,
     /// Train until this step count (including steps of a resumed checkpoint).
     pub steps: u64,
     /// Stop after this much training wall time (including a resumed run's).
@@ -46,7 +48,6 @@ pub struct TrainOptions {
     pub seed: u64,
     pub checkpoint_every: u64,
     pub threads: usize,
-    pub show_progress: bool,
 }
 
 #[derive(Clone, Debug, serde::Serialize)]
@@ -86,12 +87,7 @@ struct Workers {
 }
 
 impl Workers {
-    fn new(
-        dims: ModelDims,
-        len: usize,
-        seq_len: usize,
-        threads: usize,
-    ) -> Result<Self, TrainError> {
+    fn new(dims: Dims, len: usize, seq_len: usize, threads: usize) -> Result<Self, TrainError> {
         let pool = rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
             .build()?;
@@ -180,13 +176,15 @@ fn start(opts: &TrainOptions) -> Result<Start, TrainError> {
             best: None,
         }
     };
-    let check_shape = |found: ModelDims, option: &'static str, path: &PathBuf| match &opts.shape {
+    let check_shape = |found: Dims, option: &'static str, path: &PathBuf| match &opts.shape {
         Some((dims, name)) if *dims != found => Err(TrainError::InvalidOption {
             option,
             reason: format!(
-                "the shape asked for ({name}: {dims}) differs from {}'s ({found}); \
+                "the shape asked for ({name}: {}) differs from {}'s ({}); \
                      leave out --config and --shape to take the checkpoint's",
-                path.display()
+                describe(dims),
+                path.display(),
+                describe(&found)
             ),
         }),
         _ => Ok(()),
@@ -199,10 +197,12 @@ fn start(opts: &TrainOptions) -> Result<Start, TrainError> {
                 .into(),
         }),
         (None, None) => {
-            let (dims, name) = opts
-                .shape
-                .clone()
-                .unwrap_or_else(|| (Preset::Small.dims(), Preset::Small.name().into()));
+            let Some((dims, name)) = opts.shape.clone() else {
+                return Err(TrainError::InvalidOption {
+                    option: "--config",
+                    reason: "a new model needs a shape".into(),
+                });
+            };
             let layout = Layout::new(dims);
             let params = init_params(&layout, &mut rand::rngs::StdRng::seed_from_u64(opts.seed));
             Ok(fresh(name, layout, params))
@@ -348,25 +348,17 @@ fn recent_train_bits(curve: &[CurvePoint], n: usize) -> f64 {
     tail.iter().sum::<f64>() / tail.len() as f64 / std::f64::consts::LN_2
 }
 
-/// "12:34" for a number of seconds.
-fn clock(seconds: f64) -> String {
-    let s = seconds.max(0.0).round() as u64;
-    if s >= 3600 {
-        format!("{}:{:02}:{:02}", s / 3600, s / 60 % 60, s % 60)
-    } else {
-        format!("{}:{:02}", s / 60, s % 60)
-    }
-}
-
 /// Trains on `corpus` until `opts.steps`, `opts.seconds` or `stop()` (asked before
 /// each step). Every `checkpoint_every` steps and at the end it saves the resume state
 /// (latest parameters and optimizer) and the loss curve; the checkpoint at `opts.out`
 /// holds the parameters with the best held-out bits per byte seen (the latest ones when
-/// nothing is held out), written whenever a held-out evaluation improves on it.
+/// nothing is held out), written whenever a held-out evaluation improves on it. Events go
+/// to `events` as they happen.
 pub fn train(
     corpus: &Corpus,
     opts: &TrainOptions,
     stop: &dyn Fn() -> bool,
+    events: &dyn Progress,
 ) -> Result<TrainSummary, TrainError> {
     check_options(opts)?;
     let Start {
@@ -405,24 +397,18 @@ pub fn train(
         });
     }
     let start_step = opt.step;
-    let bar = if opts.show_progress {
-        ProgressBar::with_draw_target(Some(opts.steps), ProgressDrawTarget::stderr())
-    } else {
-        ProgressBar::hidden()
-    };
-    bar.set_style(
-        ProgressStyle::with_template("{elapsed_precise} [{bar:30}] step {pos}/{len} {msg}")
-            .unwrap_or_else(|_| ProgressStyle::default_bar()),
-    );
-    bar.set_position(start_step);
+    events.started(start_step, opts.steps);
     let began = Instant::now();
     let mut last_heldout = curve.iter().rev().find_map(|p| p.heldout_bpb);
     let mut tracker = HeldoutTracker {
         best,
         warned: false,
     };
-    let write_best =
-        |params: &[f32], step: u64| write_checkpoint(&paths.0, &layout, params, &preset_name, step);
+    let write_best = |params: &[f32], step: u64| -> Result<(), TrainError> {
+        write_checkpoint(&paths.0, &layout, params, &preset_name, step)?;
+        events.checkpoint_saved(step);
+        Ok(())
+    };
     let save_state = |params: &[f32],
                       opt: &AdamW,
                       curve: &[CurvePoint],
@@ -444,13 +430,14 @@ pub fn train(
             Verdict::Best => write_best(params, step),
             Verdict::NotBetter => Ok(()),
             Verdict::Memorising(b) => {
-                bar.println(format!(
-                    "warning: held-out {heldout:.3} bits/byte at step {step} is above the \
-                     best, {:.3} at step {}, while the training loss fell from {:.3} to \
-                     {train_bits:.3} bits/byte: the model is memorising its training text. \
-                     The checkpoint keeps step {}; more text, fewer steps or a lower --lr help.",
-                    b.heldout, b.step, b.train_bits, b.step
-                ));
+                events.memorising(&Memorising {
+                    step,
+                    heldout_bits_per_byte: heldout,
+                    train_bits_per_byte: train_bits,
+                    best_step: b.step,
+                    best_heldout_bits_per_byte: b.heldout,
+                    best_train_bits_per_byte: b.train_bits,
+                });
                 Ok(())
             }
         }
@@ -502,13 +489,13 @@ pub fn train(
         let by_seconds = opts
             .seconds
             .map_or(f64::INFINITY, |s| s - seconds_before - run_seconds);
-        let held = last_heldout.map_or("-".to_string(), |v| format!("{v:.3}"));
-        bar.set_message(format!(
-            "loss {:.3}, held-out {held} bits/byte, {bytes_per_s:.0} B/s, ETA {}",
-            loss / std::f64::consts::LN_2,
-            clock(by_steps.min(by_seconds))
-        ));
-        bar.set_position(step);
+        events.step_done(&StepReport {
+            step,
+            train_bits_per_byte: loss / std::f64::consts::LN_2,
+            heldout_bits_per_byte: last_heldout,
+            bytes_per_second: bytes_per_s,
+            eta_seconds: by_steps.min(by_seconds),
+        });
         if checkpoint_now {
             if holdout.is_empty() {
                 write_best(&params, step)?;
@@ -535,7 +522,6 @@ pub fn train(
         None => write_best(&params, opt.step)?,
     }
     save_state(&params, &opt, &curve, seconds_before + run_seconds)?;
-    bar.finish_and_clear();
     let trained = opt.step - start_step;
     Ok(TrainSummary {
         steps: opt.step,
@@ -575,12 +561,5 @@ mod tests {
         assert_eq!(t.record(500, 1.9, 0.5), Verdict::NotBetter);
         assert_eq!(t.record(600, 1.4, 0.4), Verdict::Best);
         assert_eq!(t.best.map(|b| b.step), Some(600));
-    }
-
-    #[test]
-    fn clock_reads_minutes_and_hours() {
-        assert_eq!(clock(75.4), "1:15");
-        assert_eq!(clock(3725.0), "1:02:05");
-        assert_eq!(clock(-3.0), "0:00");
     }
 }

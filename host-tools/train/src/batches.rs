@@ -6,7 +6,7 @@ use std::path::PathBuf;
 
 use rand::Rng;
 
-use super::error::TrainError;
+use crate::error::TrainError;
 
 /// A byte range of one corpus file.
 #[derive(Clone, Debug)]

@@ -4,8 +4,8 @@
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-use super::checkpoint_file::write_atomically;
-use super::error::TrainError;
+use crate::checkpoint_file::write_atomically;
+use crate::error::TrainError;
 
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CurvePoint {

@@ -1,7 +1,7 @@
 //! Safe strided matrix views over slices and one product, C = alpha·A·B + beta·C,
 //! handed to matrixmultiply's sgemm/dgemm after a bounds check.
 
-use super::real::Real;
+use crate::real::Real;
 
 /// A read-only matrix inside a slice: element (r, c) is `data[r*row_stride + c*col_stride]`.
 #[derive(Clone, Copy)]

@@ -5,11 +5,13 @@
 
 use rand::{Rng, SeedableRng};
 
-use super::config::ModelDims;
-use super::forward_backward::{backward, forward, Workspace};
-use super::model_params::{init_params, Layout};
+use inkling_core::Dims;
 
-fn check(dims: ModelDims, seed: u64) {
+use crate::forward_backward::{backward, forward, Workspace};
+use crate::model_params::{init_params, Layout};
+use crate::shapes::shape;
+
+fn check(dims: Dims, seed: u64) {
     let lay = Layout::new(dims);
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let mut p: Vec<f64> = init_params(&lay, &mut rng);
@@ -46,15 +48,10 @@ fn check(dims: ModelDims, seed: u64) {
     }
 }
 
-fn dims(tied: bool) -> ModelDims {
-    ModelDims {
-        blocks: 2,
-        d: 6,
-        i: 8,
-        n: 3,
-        k: 3,
-        r: 2,
-        tied,
+fn dims(tied: bool) -> Dims {
+    Dims {
+        tied_head: tied,
+        ..shape(2, 6, 8, 3, 3, 2)
     }
 }
 

@@ -7,14 +7,17 @@ use std::path::{Path, PathBuf};
 
 use safetensors::{Dtype, SafeTensors};
 
-use super::adamw::{AdamW, AdamWSettings};
-use super::config::{ModelDims, VOCAB};
-use super::error::TrainError;
-use super::model_params::Layout;
+use inkling_core::image::format::{Role, VOCAB};
+use inkling_core::Dims;
+use inkling_quantize::checkpoint::{schema_name, DEFAULT_NORM_EPS};
+
+use crate::adamw::{AdamW, AdamWSettings};
+use crate::error::TrainError;
+use crate::model_params::Layout;
 
 /// A checkpoint read back: its dimensions, preset name, step and parameters.
 pub struct Checkpoint {
-    pub dims: ModelDims,
+    pub dims: Dims,
     pub config: String,
     pub step: u64,
     pub params: Vec<f32>,
@@ -75,16 +78,19 @@ pub fn write_checkpoint(
 ) -> Result<(), TrainError> {
     let d = layout.dims;
     let meta: HashMap<String, String> = [
-        ("norm_eps", "1e-05".to_string()),
+        ("norm_eps", format!("{:e}", d.norm_eps)),
         ("config", config.to_string()),
         ("step", step.to_string()),
         ("blocks", d.blocks.to_string()),
-        ("d_model", d.d.to_string()),
-        ("d_inner", d.i.to_string()),
-        ("d_state", d.n.to_string()),
-        ("d_conv", d.k.to_string()),
-        ("step_rank", d.r.to_string()),
-        ("head", if d.tied { "tied" } else { "untied" }.to_string()),
+        ("d_model", d.d_model.to_string()),
+        ("d_inner", d.d_inner.to_string()),
+        ("d_state", d.d_state.to_string()),
+        ("d_conv", d.d_conv.to_string()),
+        ("step_rank", d.dt_rank.to_string()),
+        (
+            "head",
+            if d.tied_head { "tied" } else { "untied" }.to_string(),
+        ),
     ]
     .into_iter()
     .map(|(k, v)| (k.to_string(), v))
@@ -184,10 +190,11 @@ fn meta_u64(
 pub fn read_checkpoint(path: &Path) -> Result<Checkpoint, TrainError> {
     let bytes = read(path)?;
     let (st, meta) = parse(path, &bytes)?;
-    let embed = shape_of(path, &st, "byte_embed")?;
-    let select = shape_of(path, &st, "blocks.0.select")?;
-    let conv = shape_of(path, &st, "blocks.0.conv")?;
-    let decay = shape_of(path, &st, "blocks.0.decay")?;
+    let name = |role: Role| schema_name(role, 0);
+    let embed = shape_of(path, &st, &name(Role::ByteEmbed))?;
+    let select = shape_of(path, &st, &name(Role::Select))?;
+    let conv = shape_of(path, &st, &name(Role::Conv))?;
+    let decay = shape_of(path, &st, &name(Role::Decay))?;
     let (Some(&d), Some(&i), Some(&k), Some(&n), Some(&sr)) = (
         embed.get(1),
         conv.first(),
@@ -197,22 +204,32 @@ pub fn read_checkpoint(path: &Path) -> Result<Checkpoint, TrainError> {
     ) else {
         return Err(TrainError::TensorShape {
             path: path.to_owned(),
-            name: "byte_embed".into(),
+            name: name(Role::ByteEmbed),
             expected: vec![VOCAB, 0],
             found: embed,
         });
     };
     let blocks = (0..)
-        .take_while(|l| st.tensor(&format!("blocks.{l}.norm")).is_ok())
+        .take_while(|&l| st.tensor(&schema_name(Role::Norm, l)).is_ok())
         .count();
-    let dims = ModelDims {
+    let norm_eps = match meta.get("norm_eps") {
+        None => DEFAULT_NORM_EPS,
+        Some(v) => v.parse().map_err(|e| TrainError::Metadata {
+            path: path.to_owned(),
+            key: "norm_eps",
+            reason: format!("not a number: {e}"),
+        })?,
+    };
+    let dims = Dims {
+        d_model: d,
+        d_inner: i,
+        d_state: n,
+        d_conv: k,
+        dt_rank: sr.saturating_sub(2 * n),
         blocks,
-        d,
-        i,
-        n,
-        k,
-        r: sr.saturating_sub(2 * n),
-        tied: st.tensor("head").is_err(),
+        tied_head: st.tensor(&name(Role::Head)).is_err(),
+        norm_eps,
+        group: 0,
     };
     let layout = Layout::new(dims);
     let mut params = vec![0.0f32; layout.len];

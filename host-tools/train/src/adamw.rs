@@ -2,7 +2,7 @@
 //! and weight decay decoupled from the gradient; plus the learning-rate schedule
 //! and global-norm gradient clipping.
 
-use super::model_params::Layout;
+use crate::model_params::Layout;
 
 #[derive(Clone, Copy, Debug)]
 pub struct AdamWSettings {
@@ -101,14 +101,14 @@ pub fn clip_global_norm(grad: &mut [f32], max_norm: f32) -> f32 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::train::config::Preset;
+    use crate::shapes::TINY;
 
     #[test]
     fn first_step_moves_each_weight_by_the_learning_rate() {
         // Adam's first bias-corrected step is lr·g/(|g| + eps) ≈ lr·sign(g)
         // (Kingma & Ba 2015, Sec. 2.1); decoupled decay subtracts lr·λ·p on top
         // (Loshchilov & Hutter 2019, Alg. 2 line 12, with schedule multiplier 1).
-        let layout = Layout::new(Preset::Tiny.dims());
+        let layout = Layout::new(TINY);
         let mut opt = AdamW::new(&layout, DEFAULT_SETTINGS);
         let mut p = vec![0.5f32; layout.len];
         let g: Vec<f32> = (0..layout.len)

@@ -5,7 +5,7 @@
 //! States are laid out [T, N, I] so that every inner loop runs over channels,
 //! contiguous in memory, which the compiler turns into SIMD lanes.
 
-use super::real::Real;
+use crate::real::Real;
 
 /// Shapes and the inputs shared by the forward and backward pass. `sel` holds
 /// [r; B; C] rows of width `r + 2n` (B at column r, C at r + n).

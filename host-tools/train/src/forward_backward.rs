@@ -2,11 +2,13 @@
 //! byte sequence: forward pass with next-byte cross-entropy, and the hand-written
 //! reverse-mode gradient of every parameter.
 
-use super::config::{ModelDims, NORM_EPS, VOCAB};
-use super::matrix_product::{gemm, Mat};
-use super::model_params::Layout;
-use super::real::Real;
-use super::selective_scan::{scan_backward, scan_forward, ScanGradScratch, ScanInputs};
+use inkling_core::image::format::VOCAB;
+use inkling_core::Dims;
+
+use crate::matrix_product::{gemm, Mat};
+use crate::model_params::Layout;
+use crate::real::Real;
+use crate::selective_scan::{scan_backward, scan_forward, ScanGradScratch, ScanInputs};
 
 /// What one block's forward pass keeps for its backward pass.
 struct BlockActs<R> {
@@ -30,7 +32,7 @@ struct BlockActs<R> {
 
 /// Activations and gradient scratch for sequences of up to `t_max` predicted bytes.
 pub struct Workspace<R> {
-    dims: ModelDims,
+    dims: Dims,
     t_max: usize,
     /// Residual stream entering each block, then after the last one ([L+1][T, D]).
     resid: Vec<Vec<R>>,
@@ -53,8 +55,14 @@ pub struct Workspace<R> {
 }
 
 impl<R: Real> Workspace<R> {
-    pub fn new(dims: ModelDims, t_max: usize) -> Self {
-        let ModelDims { d, i, n, r, .. } = dims;
+    pub fn new(dims: Dims, t_max: usize) -> Self {
+        let Dims {
+            d_model: d,
+            d_inner: i,
+            d_state: n,
+            dt_rank: r,
+            ..
+        } = dims;
         let t = t_max;
         let z = |len: usize| vec![R::ZERO; len];
         Workspace {
@@ -73,7 +81,7 @@ impl<R: Real> Workspace<R> {
                     dtpre: z(t * i),
                     dt: z(t * i),
                     a_t: z(i * n),
-                    conv_t: z(i * dims.k),
+                    conv_t: z(i * dims.d_conv),
                     states: z(t * i * n),
                     ypre: z(t * i),
                     y: z(t * i),
@@ -92,7 +100,7 @@ impl<R: Real> Workspace<R> {
             gsel: z(t * (r + 2 * n)),
             ga: z(i * n),
             gs: z(i * n),
-            gconv_t: z(i * dims.k),
+            gconv_t: z(i * dims.d_conv),
             dx: z(i),
         }
     }
@@ -117,9 +125,8 @@ fn softplus<R: Real>(v: R) -> R {
 }
 
 /// h = rmsnorm(u)·w per row of width d; keeps 1/rms and the normalised rows.
-fn rmsnorm_forward<R: Real>(u: &[R], w: &[R], inv: &mut [R], hn: &mut [R], h: &mut [R]) {
+fn rmsnorm_forward<R: Real>(u: &[R], w: &[R], eps: R, inv: &mut [R], hn: &mut [R], h: &mut [R]) {
     let d = w.len();
-    let eps = R::from_f64(NORM_EPS);
     let inv_d = R::from_f64(1.0 / d as f64);
     for (row, inv_t) in inv.iter_mut().enumerate() {
         let span = row * d..(row + 1) * d;
@@ -170,7 +177,15 @@ pub fn forward<R: Real>(p: &[R], lay: &Layout, ws: &mut Workspace<R>, bytes: &[u
         "sequence length outside the workspace"
     );
     assert_eq!(ws.dims, lay.dims, "workspace built for other dimensions");
-    let ModelDims { d, i, n, k, r, .. } = lay.dims;
+    let Dims {
+        d_model: d,
+        d_inner: i,
+        d_state: n,
+        d_conv: k,
+        dt_rank: r,
+        ..
+    } = lay.dims;
+    let eps = R::from_f64(f64::from(lay.dims.norm_eps));
     let sr = r + 2 * n;
     let embed = &p[lay.byte_embed.clone()];
     for (tt, &b) in bytes[..t].iter().enumerate() {
@@ -184,6 +199,7 @@ pub fn forward<R: Real>(p: &[R], lay: &Layout, ws: &mut Workspace<R>, bytes: &[u
         rmsnorm_forward(
             u_in,
             &p[bs.norm.clone()],
+            eps,
             &mut a.inv[..t],
             &mut a.hn,
             &mut a.h,
@@ -296,6 +312,7 @@ pub fn forward<R: Real>(p: &[R], lay: &Layout, ws: &mut Workspace<R>, bytes: &[u
     rmsnorm_forward(
         u,
         &p[lay.final_norm.clone()],
+        eps,
         &mut ws.inv_f[..t],
         &mut ws.hn_f,
         &mut ws.hf,
@@ -339,7 +356,14 @@ pub fn backward<R: Real>(
     g: &mut [R],
 ) {
     let t = bytes.len() - 1;
-    let ModelDims { d, i, n, k, r, .. } = lay.dims;
+    let Dims {
+        d_model: d,
+        d_inner: i,
+        d_state: n,
+        d_conv: k,
+        dt_rank: r,
+        ..
+    } = lay.dims;
     let sr = r + 2 * n;
     let Workspace {
         blocks,

@@ -1,15 +1,18 @@
 //! End-to-end checks of the trainer: learning happens, checkpoints follow the
 //! schema, and a resumed run continues exactly where it stopped.
 
-use std::cell::Cell;
+use std::cell::{Cell, RefCell};
 use std::path::Path;
 
+use inkling_core::Dims;
+use inkling_quantize::checkpoint::DEFAULT_NORM_EPS;
 use safetensors::SafeTensors;
 
-use super::batches::Corpus;
-use super::checkpoint_file::{optimizer_path, read_checkpoint};
-use super::config::{ModelDims, Preset};
-use super::training_run::{train, TrainOptions};
+use crate::batches::Corpus;
+use crate::checkpoint_file::{optimizer_path, read_checkpoint};
+use crate::progress::{Progress, StepReport};
+use crate::shapes::{SMALL, TINY};
+use crate::training_run::{train, TrainOptions};
 
 fn text() -> Vec<u8> {
     b"the cat sat on the mat. the dog sat on the log. ".repeat(60)
@@ -18,7 +21,7 @@ fn text() -> Vec<u8> {
 fn options(out: &Path, steps: u64) -> TrainOptions {
     TrainOptions {
         out: out.to_owned(),
-        shape: Some((Preset::Tiny.dims(), "tiny".into())),
+        shape: Some((TINY, "tiny".into())),
         steps,
         seconds: None,
         resume: None,
@@ -29,7 +32,26 @@ fn options(out: &Path, steps: u64) -> TrainOptions {
         seed: 5,
         checkpoint_every: 1000,
         threads: 2,
-        show_progress: false,
+    }
+}
+
+/// Keeps the events of a run.
+#[derive(Default)]
+struct Recorder {
+    started: Cell<Option<(u64, u64)>>,
+    steps: RefCell<Vec<StepReport>>,
+    saved: RefCell<Vec<u64>>,
+}
+
+impl Progress for Recorder {
+    fn started(&self, step: u64, steps: u64) {
+        self.started.set(Some((step, steps)));
+    }
+    fn step_done(&self, report: &StepReport) {
+        self.steps.borrow_mut().push(*report);
+    }
+    fn checkpoint_saved(&self, step: u64) {
+        self.saved.borrow_mut().push(step);
     }
 }
 
@@ -38,7 +60,7 @@ fn loss_falls_on_repetitive_text() {
     let dir = tempfile::tempdir().unwrap();
     let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let out = dir.path().join("m.safetensors");
-    let s = train(&corpus, &options(&out, 300), &|| false).unwrap();
+    let s = train(&corpus, &options(&out, 300), &|| false, &()).unwrap();
     // Start: ≈ ln 256 = 5.55 nats (uniform guess over bytes). The text has 12
     // distinct bytes and a 48-byte period, so a model that learned anything beyond
     // byte frequencies is far below the order-0 entropy (≈ 3.2 bits = 2.2 nats).
@@ -59,15 +81,15 @@ fn checkpoint_follows_the_schema() {
     let dir = tempfile::tempdir().unwrap();
     let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let out = dir.path().join("m.safetensors");
-    let untied = ModelDims {
-        tied: false,
-        ..Preset::Tiny.dims()
+    let untied = Dims {
+        tied_head: false,
+        ..TINY
     };
     let opts = TrainOptions {
         shape: Some((untied, "tiny".into())),
         ..options(&out, 3)
     };
-    train(&corpus, &opts, &|| false).unwrap();
+    train(&corpus, &opts, &|| false, &()).unwrap();
     let bytes = std::fs::read(&out).unwrap();
     let st = SafeTensors::deserialize(&bytes).unwrap();
     // The schema table of the design, for tiny: D=16, I=32, N=4, K=4, R=2.
@@ -103,12 +125,12 @@ fn checkpoint_follows_the_schema() {
     }
     let (_, header) = SafeTensors::read_metadata(&bytes).unwrap();
     let meta = header.metadata().clone().unwrap();
-    assert_eq!(meta["norm_eps"], "1e-05");
+    assert_eq!(meta["norm_eps"].parse::<f32>(), Ok(DEFAULT_NORM_EPS));
     assert_eq!(meta["config"], "tiny");
     assert_eq!(meta["step"], "3");
     let back = read_checkpoint(&out).unwrap();
     assert_eq!(back.step, 3);
-    assert!(!back.dims.tied);
+    assert!(!back.dims.tied_head);
     assert_eq!(back.dims, super::model_params::Layout::new(back.dims).dims);
 }
 
@@ -118,7 +140,7 @@ fn resume_continues_from_the_saved_step() {
     let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let never = || false;
     let straight = dir.path().join("straight.safetensors");
-    train(&corpus, &options(&straight, 30), &never).unwrap();
+    train(&corpus, &options(&straight, 30), &never, &()).unwrap();
     // The same run, stopped (as by Ctrl-C) before its 13th step.
     let split = dir.path().join("split.safetensors");
     let asked = Cell::new(0);
@@ -126,7 +148,7 @@ fn resume_continues_from_the_saved_step() {
         asked.set(asked.get() + 1);
         asked.get() > 12
     };
-    let first = train(&corpus, &options(&split, 30), &stop_at_12).unwrap();
+    let first = train(&corpus, &options(&split, 30), &stop_at_12, &()).unwrap();
     assert!(first.interrupted);
     assert_eq!(first.steps, 12);
     let resumed = TrainOptions {
@@ -134,7 +156,7 @@ fn resume_continues_from_the_saved_step() {
         shape: None,
         ..options(&split, 30)
     };
-    let s = train(&corpus, &resumed, &never).unwrap();
+    let s = train(&corpus, &resumed, &never, &()).unwrap();
     assert_eq!(s.steps, 30);
     assert!(optimizer_path(&split).exists());
     // Batches depend only on (seed, step) and the optimizer state is restored, so
@@ -158,7 +180,7 @@ fn fine_tuning_starts_from_the_trained_weights_with_a_fresh_schedule() {
     let corpus = Corpus::unweighted(vec![text()], 0.05).unwrap();
     let never = || false;
     let base = dir.path().join("base.safetensors");
-    train(&corpus, &options(&base, 200), &never).unwrap();
+    train(&corpus, &options(&base, 200), &never, &()).unwrap();
     // A new text of the same words; the fine-tuned run counts its steps from 0.
     let other = Corpus::unweighted(
         vec![b"the dog sat on the mat. the cat sat on the log. ".repeat(60)],
@@ -171,10 +193,10 @@ fn fine_tuning_starts_from_the_trained_weights_with_a_fresh_schedule() {
         shape: None,
         ..options(&tuned, 20)
     };
-    let s = train(&other, &from, &never).unwrap();
+    let s = train(&other, &from, &never, &()).unwrap();
     assert_eq!(s.steps, 20);
     let fresh = dir.path().join("fresh.safetensors");
-    train(&other, &options(&fresh, 20), &never).unwrap();
+    train(&other, &options(&fresh, 20), &never, &()).unwrap();
     // The first step's loss: a trained model already knows the shared words and letters,
     // a fresh one starts near ln 256 = 5.55 nats (a uniform guess over bytes).
     let first_loss = |p: &Path| {
@@ -191,10 +213,13 @@ fn fine_tuning_starts_from_the_trained_weights_with_a_fresh_schedule() {
     // Another shape is refused, naming both.
     let small = TrainOptions {
         from: Some(base.clone()),
-        shape: Some((Preset::Small.dims(), "small".into())),
+        shape: Some((SMALL, "small".into())),
         ..options(&dir.path().join("x.safetensors"), 5)
     };
-    let err = train(&other, &small, &never).err().unwrap().to_string();
+    let err = train(&other, &small, &never, &())
+        .err()
+        .unwrap()
+        .to_string();
     assert!(err.contains("d=96") && err.contains("d=16"), "{err}");
 }
 
@@ -207,7 +232,8 @@ fn the_checkpoint_holds_the_best_held_out_step() {
     bytes.extend(b"quick brown foxes jump over lazy dogs. ".repeat(8));
     let corpus = Corpus::unweighted(vec![bytes], 0.1).unwrap();
     let out = dir.path().join("m.safetensors");
-    let s = train(&corpus, &options(&out, 400), &|| false).unwrap();
+    let events = Recorder::default();
+    let s = train(&corpus, &options(&out, 400), &|| false, &events).unwrap();
     let csv = std::fs::read_to_string(dir.path().join("m.safetensors.loss.csv")).unwrap();
     let (best_step, best) = csv
         .lines()
@@ -220,4 +246,16 @@ fn the_checkpoint_holds_the_best_held_out_step() {
     assert_eq!(s.checkpoint_step, best_step);
     assert_eq!(read_checkpoint(&out).unwrap().step, best_step);
     assert!((s.checkpoint_heldout_bits_per_byte.unwrap() - best).abs() < 1e-4);
+    // The events follow the run: one report per step, the last checkpoint written is the
+    // best step's, and the time left falls to nothing.
+    assert_eq!(events.started.get(), Some((0, 400)));
+    let steps = events.steps.borrow();
+    assert_eq!(steps.len(), 400);
+    assert!(steps
+        .iter()
+        .enumerate()
+        .all(|(k, r)| r.step == k as u64 + 1));
+    assert_eq!(steps[399].eta_seconds, 0.0);
+    assert!(steps[399].heldout_bits_per_byte.is_some());
+    assert_eq!(events.saved.borrow().last(), Some(&best_step));
 }

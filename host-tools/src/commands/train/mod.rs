@@ -4,9 +4,16 @@ use std::path::PathBuf;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::OnceLock;
 
-use crate::train::batches::{Corpus, CorpusFile, Holdout};
-use crate::train::config::{parse_shape, ModelDims};
-use crate::train::{train, Preset, TrainError, TrainOptions};
+use inkling_core::Dims;
+use inkling_train::batches::{Corpus, CorpusFile, Holdout};
+use inkling_train::{train, TrainError, TrainOptions};
+
+mod progress_bar;
+mod shape;
+
+use progress_bar::StepBar;
+use shape::parse_shape;
+pub use shape::Preset;
 
 /// Train a byte-level model on raw-byte corpus files (CPU).
 #[derive(Clone, Debug, clap::Args)]
@@ -88,9 +95,11 @@ fn install_ctrl_c() -> Result<(), TrainError> {
 }
 
 /// The new model's shape from `--config`, `--shape` and `--untied-head`; `None`
-/// when none is given (the preset's default, or the resumed checkpoint's).
-fn shape(args: &TrainArgs) -> Result<Option<(ModelDims, String)>, TrainError> {
-    if args.config.is_none() && args.shape.is_none() && !args.untied_head {
+/// when none is given with `--resume` or `--from` (the checkpoint's shape), `small`
+/// when none is given for a new model.
+fn shape(args: &TrainArgs) -> Result<Option<(Dims, String)>, TrainError> {
+    let given = args.config.is_some() || args.shape.is_some() || args.untied_head;
+    if !given && (args.resume.is_some() || args.from.is_some()) {
         return Ok(None);
     }
     let preset = args.config.unwrap_or(Preset::Small);
@@ -105,7 +114,7 @@ fn shape(args: &TrainArgs) -> Result<Option<(ModelDims, String)>, TrainError> {
             name = "custom".into();
         }
     }
-    dims.tied = !args.untied_head;
+    dims.tied_head = !args.untied_head;
     Ok(Some((dims, name)))
 }
 
@@ -133,7 +142,6 @@ pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
         seed: args.seed,
         checkpoint_every: args.checkpoint_every,
         threads,
-        show_progress: true,
     };
     let holdout = Holdout {
         fraction: args.holdout,
@@ -145,7 +153,9 @@ pub fn run(args: &TrainArgs) -> Result<(), TrainError> {
         corpus.train_bytes(),
         corpus.holdout_bytes()
     );
-    let summary = train(&corpus, &opts, &|| STOP.load(Ordering::SeqCst))?;
+    let bar = StepBar::new(opts.steps);
+    let summary = train(&corpus, &opts, &|| STOP.load(Ordering::SeqCst), &bar)?;
+    bar.finish();
     if summary.interrupted {
         eprintln!(
             "interrupted: saved step {} to {}",
