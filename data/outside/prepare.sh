@@ -5,6 +5,8 @@
 #   quotations.txt  short quotations: the `fortunes` file of fortunes-min (BSD licence)
 #   legal.txt       legal prose: /usr/share/common-licenses/GPL-3 (base-files)
 #   faq.txt         a technical FAQ: the Python 3.11 FAQ sources of python3.11-doc (PSF-2.0)
+# and quotations-baseline.txt, the other two collections of fortunes-min (`literature`,
+# `riddles`): similar text whose word counts make the frequency baseline for quotations.txt.
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 bytes=35000
@@ -22,9 +24,11 @@ fi
 cut_lines() { head -c "$bytes" | sed '$d'; }
 
 grep -v '^%$' /usr/share/games/fortunes/fortunes | cut_lines >"$here/quotations.txt"
+cat /usr/share/games/fortunes/literature /usr/share/games/fortunes/riddles | grep -v '^%$' \
+    >"$here/quotations-baseline.txt"
 cut_lines </usr/share/common-licenses/GPL-3 >"$here/legal.txt"
 cat /usr/share/doc/python3.11/html/_sources/faq/*.rst.txt | cut_lines >"$here/faq.txt"
 
-for f in quotations legal faq; do
+for f in quotations quotations-baseline legal faq; do
     printf 'wrote %s.txt: %d bytes\n' "$f" "$(wc -c <"$here/$f.txt")"
 done
