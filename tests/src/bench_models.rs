@@ -5,7 +5,6 @@ use std::path::Path;
 
 use inkling_host::train::config::Preset;
 use inkling_host::train::model_params::{init_params, Layout};
-use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions, FloatModel};
 use rand::SeedableRng;
 
@@ -23,7 +22,8 @@ pub fn preset_model(preset: Preset, seed: u64, dir: &Path) -> (FloatModel, Vec<u
         0,
     )
     .expect("write the checkpoint");
-    let ck = Checkpoint::load(&path, &NameMap::identity()).expect("read the checkpoint back");
+    let ck = Checkpoint::load(&path, &inkling_quantize::ReadOptions::default())
+        .expect("read the checkpoint back");
     let (image, _) = convert(&ck, &ConvertOptions::default()).expect("convert");
     (FloatModel::new(ck), image)
 }
