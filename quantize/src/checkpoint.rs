@@ -378,8 +378,18 @@ impl Checkpoint {
         };
         let two_i = axis(Role::Expand, true)?;
         let d_conv = axis(Role::Conv, false)?;
-        let d_state = axis(Role::Decay, false)?;
         let dt_rank = axis(Role::Step, false)?;
+        let decay = r.shape(Role::Decay, 0)?;
+        let d_state = match decay.as_slice() {
+            [.., n] if decay.len() >= 2 => *n,
+            // One value per channel (or head) is not this block's decay: name it before the
+            // shapes it would throw off.
+            _ => {
+                let select_rows = axis(Role::Select, true)?;
+                let n = select_rows.saturating_sub(dt_rank) / 2;
+                return Err(r.shape_error(&r.naming.name(Role::Decay, 0), &[two_i / 2, n], decay));
+            }
+        };
         let mut dims = Dims {
             d_model,
             d_inner: two_i / 2,
@@ -433,12 +443,13 @@ impl Checkpoint {
         }
         // Every tensor of the file must be one the model uses: an unknown one (a bias this
         // model has no place for, a block past the last) would otherwise be silently dropped.
-        let extras: Vec<String> =
+        let mut extras: Vec<String> =
             r.st.names()
                 .into_iter()
                 .filter(|n| !used.contains(*n))
                 .map(str::to_string)
                 .collect();
+        extras.sort();
         for extra in extras {
             let known = |templates: &[&str]| {
                 (0..blocks).any(|l| templates.iter().any(|t| fill(t, l) == extra))
