@@ -76,6 +76,11 @@ impl NameMap {
     /// assert_eq!(map.lookup("blocks.3.expand"), "net.stage3.W_in");
     /// assert_eq!(map.lookup("final_norm"), "final_norm");
     ///
+    /// // An exact entry wins over the pattern.
+    /// let text = "[names]\n\"blocks.{block}.norm\" = \"n{block}\"\n\"blocks.2.norm\" = \"last\"\n";
+    /// let map = NameMap::parse(text, Path::new("m.toml"))?;
+    /// assert_eq!((map.lookup("blocks.1.norm"), map.lookup("blocks.2.norm")), ("n1".into(), "last".into()));
+    ///
     /// let wrong = "[names]\n\"blocks.{block}.expnd\" = \"x{block}\"\n";
     /// let err = NameMap::parse(wrong, Path::new("m.toml")).unwrap_err().to_string();
     /// assert!(err.contains("m.toml line 2") && err.contains("blocks.{block}.expnd"), "{err}");

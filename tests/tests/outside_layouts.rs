@@ -495,3 +495,60 @@ fn map_errors_name_the_line_at_fault() {
         );
     }
 }
+
+#[test]
+fn a_damaged_source_record_is_refused_by_name() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    let spec = spec(16, 24, 4, 1, true, Dtype::F32);
+    let checkpoint = dir.path().join("hub.safetensors");
+    make_checkpoint_with(&spec, &checkpoint, &["--layout", HUB]);
+    let image = dir.path().join("hub.inkl");
+    convert(&checkpoint, &image, &[]);
+    let mut bytes = read(&image);
+    let record = bytes.len() - 4 - 16;
+    bytes[record] ^= 0x20; // the tag, re-sealed so that only the record is wrong
+    let body = bytes.len() - 4;
+    let crc = crc32(&bytes[..body]);
+    bytes[body..].copy_from_slice(&crc.to_le_bytes());
+    let damaged = dir.path().join("damaged.inkl");
+    std::fs::write(&damaged, &bytes).expect("write");
+    refused(
+        &["inspect".as_ref(), damaged.as_os_str()],
+        &dir.path().join("no-output"),
+        &["source record", &record.to_string()],
+    );
+}
+
+#[test]
+fn the_norm_epsilon_can_be_given_when_the_metadata_lacks_it() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    let spec = spec(16, 24, 4, 1, true, Dtype::F32);
+    let checkpoint = dir.path().join("bare.safetensors");
+    make_checkpoint_with(
+        &spec,
+        &checkpoint,
+        &["--layout", REFERENCE, "--no-metadata"],
+    );
+    let image = dir.path().join("bare.inkl");
+    convert(
+        &checkpoint,
+        &image,
+        &[OsStr::new("--norm-eps"), OsStr::new("0.001")],
+    );
+    let shown = run_json(["inspect".as_ref(), image.as_os_str(), "--json".as_ref()]);
+    let eps = shown["dims"]["norm_eps"].as_f64().expect("norm_eps");
+    assert_eq!(eps as f32, 0.001f32);
+    let bad = dir.path().join("bad.inkl");
+    refused(
+        &[
+            "convert".as_ref(),
+            checkpoint.as_os_str(),
+            "-o".as_ref(),
+            bad.as_os_str(),
+            "--norm-eps".as_ref(),
+            "0".as_ref(),
+        ],
+        &bad,
+        &["--norm-eps", "positive"],
+    );
+}
