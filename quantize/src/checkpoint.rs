@@ -225,7 +225,7 @@ impl Reader<'_> {
         Ok(values)
     }
 
-    /// A role's tensor; messages name it as the file does, and a mapped name by its map line.
+    /// A role's tensor; messages name it as the file does (a missing one also by its map line).
     fn read(
         &self,
         role: Role,
@@ -235,29 +235,7 @@ impl Reader<'_> {
         if !self.has(role, block) {
             return Err(self.missing(role, block));
         }
-        let name = self.naming.name(role, block);
-        self.read_named(&name, expected)
-            .map_err(|e| match (e, &self.naming) {
-                // Messages use the schema's name for the schema's own names (as before maps
-                // existed) and the file's otherwise.
-                (
-                    QuantizeError::Shape {
-                        path,
-                        expected,
-                        found,
-                        hint,
-                        ..
-                    },
-                    Naming::Map(map),
-                ) if map.is_identity() => QuantizeError::Shape {
-                    path,
-                    name: schema_name(role, block),
-                    expected,
-                    found,
-                    hint,
-                },
-                (e, _) => e,
-            })
+        self.read_named(&self.naming.name(role, block), expected)
     }
 }
 
@@ -311,7 +289,9 @@ impl Checkpoint {
         Self::from_bytes(&bytes, path, options)
     }
 
-    /// Reads and checks a checkpoint held in memory; `path` is only for messages.
+    /// Reads and checks a checkpoint held in memory; `path` is only for messages. With the
+    /// identity map, a file without `byte_embed` is read in the outside layout its embedding's
+    /// name shows, if any (see [`crate::schema`]).
     pub fn from_bytes(
         bytes: &[u8],
         path: &Path,
@@ -341,11 +321,7 @@ impl Checkpoint {
             _ => {
                 return Err(QuantizeError::Shape {
                     path: path.to_path_buf(),
-                    name: if outside.is_some() {
-                        embed_name
-                    } else {
-                        "byte_embed".into()
-                    },
+                    name: embed_name,
                     expected: vec![EMBED_ROWS, embed.last().copied().unwrap_or(0)],
                     found: embed,
                     hint: "",

@@ -11,7 +11,9 @@
 //! One safetensors file: an 8-byte little-endian header length, a JSON header naming each
 //! tensor's `dtype`, `shape` and `data_offsets`, then the data. Element types F32, F16 (IEEE 754
 //! binary16) and BF16 (bfloat16, the top half of a binary32); the types may differ from tensor to
-//! tensor. Every value must be finite. Optional `__metadata__` keys:
+//! tensor. Every value must be finite. (A checkpoint saved as a PyTorch pickle, as the reference
+//! code saves its own, is re-saved as safetensors first; the converter runs no pickle.) Optional
+//! `__metadata__` keys:
 //!
 //! | key | value | default |
 //! |---|---|---|
@@ -109,6 +111,8 @@
 //!   layer norm subtracts the mean and ours does not.
 //! - **The epsilon** is not in either code's weight file: it is read from `norm_eps` metadata,
 //!   else `--norm-eps`, else `1e-5`, both codes' default.
+//! - **Precision**: both codes may keep the residual in f32 and cast the norm's output to the
+//!   weights' type; that changes rounding, not the equations. We run f32 throughout.
 //! - **The activation** is assumed SiLU, both codes' default and the only one the published block
 //!   uses; a model trained with another cannot be told from its weights.
 //! - **Vocabulary**: both codes pad the vocabulary to a multiple of 8 (or more) rows; for a byte
