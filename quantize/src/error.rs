@@ -73,7 +73,7 @@ pub enum QuantizeError {
     /// The embedding has more rows than there are byte values.
     #[error(
         "{path}: tensor `{name}` has {rows} rows; the model reads bytes, so it takes 256, one per \
-         byte value. If row b is byte value b, `--cut-rows` keeps rows 0..256 and drops the \
+         byte value. If row b is byte value b, `inkling convert --cut-rows` keeps rows 0..256 and drops the \
          {cut} past them (see the {SCHEMA_SPEC})",
         cut = rows - 256
     )]

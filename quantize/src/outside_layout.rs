@@ -6,7 +6,7 @@ use inkling_core::Dims;
 
 /// How a tensor's shape in an outside layout relates to the schema's.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum ShapeThere {
+enum ShapeThere {
     /// The schema's shape.
     Same,
     /// A 1-D convolution layer's weight: `[I, 1, K]` for the schema's `[I, K]`.
@@ -154,7 +154,7 @@ pub fn name_there(layout: SourceLayout, role: Role, block: usize) -> String {
 }
 
 /// How a role's shape there relates to the schema's.
-pub fn shape_there(role: Role) -> ShapeThere {
+fn shape_there(role: Role) -> ShapeThere {
     TABLE
         .iter()
         .find(|e| e.role == role)
