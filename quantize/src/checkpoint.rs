@@ -225,6 +225,29 @@ impl Reader<'_> {
         Ok(values)
     }
 
+    /// A tensor of an outside layout that the model does not use: an all-zero projection bias
+    /// is dropped; a norm's bias, a bias of other values, or anything else is refused.
+    fn outside_extra(&self, extra: String, dims: &Dims) -> Result<Adjustment, QuantizeError> {
+        let path = self.path.to_path_buf();
+        let named = |template: &str| (0..dims.blocks).any(|l| fill(template, l) == extra);
+        if LAYER_NORM_BIASES.into_iter().any(named) {
+            return Err(QuantizeError::LayerNorm { path, name: extra });
+        }
+        let Some((_, role)) = OPTIONAL_BIASES.into_iter().find(|(t, _)| named(t)) else {
+            return Err(QuantizeError::Unexpected { path, name: extra });
+        };
+        let values = self.read_named(&extra, &[dims.shape(role).0])?;
+        match values.iter().position(|&v| v != 0.0) {
+            Some(index) => Err(QuantizeError::NonZeroBias {
+                path,
+                name: extra,
+                index,
+                value: values[index],
+            }),
+            None => Ok(Adjustment::ZeroBiasDropped { name: extra }),
+        }
+    }
+
     /// A role's tensor; messages name it as the file does (a missing one also by its map line).
     fn read(
         &self,
@@ -427,37 +450,15 @@ impl Checkpoint {
                 .collect();
         extras.sort();
         for extra in extras {
-            let known = |templates: &[&str]| {
-                (0..blocks).any(|l| templates.iter().any(|t| fill(t, l) == extra))
-            };
-            if outside.is_some() && known(&LAYER_NORM_BIASES) {
-                return Err(QuantizeError::LayerNorm {
-                    path: path.to_path_buf(),
-                    name: extra,
-                });
-            }
-            if outside.is_some() && known(&OPTIONAL_BIASES) {
-                let len = if extra.contains("in_proj") {
-                    2 * dims.d_inner
-                } else {
-                    d_model
-                };
-                let values = r.read_named(&extra, &[len])?;
-                if let Some(index) = values.iter().position(|&v| v != 0.0) {
-                    return Err(QuantizeError::NonZeroBias {
+            match outside {
+                Some(_) => adjustments.push(r.outside_extra(extra, &dims)?),
+                None => {
+                    return Err(QuantizeError::Unexpected {
                         path: path.to_path_buf(),
                         name: extra,
-                        index,
-                        value: values[index],
-                    });
+                    })
                 }
-                adjustments.push(Adjustment::ZeroBiasDropped { name: extra });
-                continue;
             }
-            return Err(QuantizeError::Unexpected {
-                path: path.to_path_buf(),
-                name: extra,
-            });
         }
         Ok(Checkpoint {
             dims,

@@ -76,11 +76,12 @@ const TABLE: [Entry; 12] = [
     entry(Role::Head, "lm_head.weight", ShapeThere::Same),
 ];
 
-/// Biases the published block has only when trained with a bias option; our equations have
-/// none, so the reader drops them when all zero and refuses them otherwise.
-pub const OPTIONAL_BIASES: [&str; 2] = [
-    "backbone.layers.{l}.mixer.in_proj.bias",
-    "backbone.layers.{l}.mixer.out_proj.bias",
+/// Biases the published block has only when trained with a bias option, with the matrix whose
+/// output they add to; our equations have none, so the reader drops them when all zero and
+/// refuses them otherwise.
+pub const OPTIONAL_BIASES: [(&str, Role); 2] = [
+    ("backbone.layers.{l}.mixer.in_proj.bias", Role::Expand),
+    ("backbone.layers.{l}.mixer.out_proj.bias", Role::Contract),
 ];
 
 /// Biases that mean layer norm instead of RMS norm; refused.
