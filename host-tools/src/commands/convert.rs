@@ -27,7 +27,8 @@ pub enum Output {
 #[derive(Debug, clap::Args)]
 pub struct ConvertArgs {
     /// The float checkpoint (safetensors; F32, F16 or BF16): the schema's names, or the layout
-    /// of the published reference code or of its model-hub port, recognised by its names.
+    /// of the published reference code or of its model-hub port, recognised by its names (all
+    /// specified in quantize/src/schema.rs).
     pub checkpoint: PathBuf,
     /// The file to write (replaced atomically).
     #[arg(short, long)]
@@ -42,7 +43,8 @@ pub struct ConvertArgs {
     /// Keep rows 0..256 of an embedding (and head) with more rows, dropping the rest.
     #[arg(long)]
     pub cut_rows: bool,
-    /// The RMS norm's epsilon, for a checkpoint whose metadata does not say (default 1e-5).
+    /// The RMS norm's epsilon, overriding the checkpoint's `norm_eps` metadata (without either:
+    /// 1e-5).
     #[arg(long)]
     pub norm_eps: Option<f32>,
     /// Columns per int8 scale (0: one scale per row).
