@@ -28,19 +28,19 @@
 //!
 //! | name | shape | enters (design's model equations, per byte `b`) |
 //! |---|---|---|
-//! | `byte_embed` | [256, D] | `u = byte_embed[b]`; row `b` is byte value `b` |
-//! | `blocks.{l}.norm` | [D] | `h = rmsnorm(u) * norm` |
-//! | `blocks.{l}.expand` | [2I, D] | `[x; z] = expand · h`; rows `0..I` are `x`, rows `I..2I` are `z` |
-//! | `blocks.{l}.conv` | [I, K] | `x = silu(conv_bias + Σ_k conv[:, k] * x_{t-K+1+k})`; column `K-1` meets the newest input |
-//! | `blocks.{l}.conv_bias` | [I] | the same |
-//! | `blocks.{l}.select` | [R + 2N, I] | `[r; B; C] = select · x`, in that row order |
-//! | `blocks.{l}.step` | [I, R] | `dt = softplus(step · r + step_bias)` |
-//! | `blocks.{l}.step_bias` | [I] | the same |
-//! | `blocks.{l}.decay` | [I, N] | `A = -exp(decay)`; `s = exp(dt[i] A[i,n]) s + dt[i] B[n] x[i]` |
-//! | `blocks.{l}.skip` | [I] | `y = (s · C + skip * x) * silu(z)` |
-//! | `blocks.{l}.contract` | [D, I] | `u = u + contract · y` |
-//! | `final_norm` | [D] | `logits = head · (rmsnorm(u) * final_norm)` |
-//! | `head` (optional) | [256, D] | the same; absent means tied: `head = byte_embed` |
+//! | `byte_embed` | `[256, D]` | `u = byte_embed[b]`; row `b` is byte value `b` |
+//! | `blocks.{l}.norm` | `[D]` | `h = rmsnorm(u) * norm` |
+//! | `blocks.{l}.expand` | `[2I, D]` | `[x; z] = expand · h`; rows `0..I` are `x`, rows `I..2I` are `z` |
+//! | `blocks.{l}.conv` | `[I, K]` | `x = silu(conv_bias + Σ_k conv[:, k] * x_{t-K+1+k})`; column `K-1` meets the newest input |
+//! | `blocks.{l}.conv_bias` | `[I]` | the same |
+//! | `blocks.{l}.select` | `[R + 2N, I]` | `[r; B; C] = select · x`, in that row order |
+//! | `blocks.{l}.step` | `[I, R]` | `dt = softplus(step · r + step_bias)` |
+//! | `blocks.{l}.step_bias` | `[I]` | the same |
+//! | `blocks.{l}.decay` | `[I, N]` | `A = -exp(decay)`; `s = exp(dt[i] A[i,n]) s + dt[i] B[n] x[i]` |
+//! | `blocks.{l}.skip` | `[I]` | `y = (s · C + skip * x) * silu(z)` |
+//! | `blocks.{l}.contract` | `[D, I]` | `u = u + contract · y` |
+//! | `final_norm` | `[D]` | `logits = head · (rmsnorm(u) * final_norm)` |
+//! | `head` (optional) | `[256, D]` | the same; absent means tied: `head = byte_embed` |
 //!
 //! with `rmsnorm(v) = v / sqrt(mean(v²) + norm_eps)`, `silu(v) = v / (1 + exp(-v))` and
 //! `softplus(v) = ln(1 + exp(v))`. All matrices are row-major `[out, in]`, as a dense layer
@@ -79,19 +79,19 @@
 //!
 //! | schema | reference code (`reference-code`) | model-hub port (`model-hub`) | shape there |
 //! |---|---|---|---|
-//! | `byte_embed` | `backbone.embedding.weight` | `backbone.embeddings.weight` | [V, D], V ≥ 256 |
-//! | `blocks.{l}.norm` | `backbone.layers.{l}.norm.weight` | the same | [D] |
-//! | `blocks.{l}.expand` | `backbone.layers.{l}.mixer.in_proj.weight` | the same | [2I, D] |
-//! | `blocks.{l}.conv` | `backbone.layers.{l}.mixer.conv1d.weight` | the same | [I, 1, K] |
-//! | `blocks.{l}.conv_bias` | `backbone.layers.{l}.mixer.conv1d.bias` | the same | [I] |
-//! | `blocks.{l}.select` | `backbone.layers.{l}.mixer.x_proj.weight` | the same | [R + 2N, I] |
-//! | `blocks.{l}.step` | `backbone.layers.{l}.mixer.dt_proj.weight` | the same | [I, R] |
-//! | `blocks.{l}.step_bias` | `backbone.layers.{l}.mixer.dt_proj.bias` | the same | [I] |
-//! | `blocks.{l}.decay` | `backbone.layers.{l}.mixer.A_log` | the same | [I, N] |
-//! | `blocks.{l}.skip` | `backbone.layers.{l}.mixer.D` | the same | [I] |
-//! | `blocks.{l}.contract` | `backbone.layers.{l}.mixer.out_proj.weight` | the same | [D, I] |
-//! | `final_norm` | `backbone.norm_f.weight` | the same | [D] |
-//! | `head` | `lm_head.weight` (absent when tied) | `lm_head.weight` (written out when tied) | [V, D] |
+//! | `byte_embed` | `backbone.embedding.weight` | `backbone.embeddings.weight` | `[V, D]`, V ≥ 256 |
+//! | `blocks.{l}.norm` | `backbone.layers.{l}.norm.weight` | the same | `[D]` |
+//! | `blocks.{l}.expand` | `backbone.layers.{l}.mixer.in_proj.weight` | the same | `[2I, D]` |
+//! | `blocks.{l}.conv` | `backbone.layers.{l}.mixer.conv1d.weight` | the same | `[I, 1, K]` |
+//! | `blocks.{l}.conv_bias` | `backbone.layers.{l}.mixer.conv1d.bias` | the same | `[I]` |
+//! | `blocks.{l}.select` | `backbone.layers.{l}.mixer.x_proj.weight` | the same | `[R + 2N, I]` |
+//! | `blocks.{l}.step` | `backbone.layers.{l}.mixer.dt_proj.weight` | the same | `[I, R]` |
+//! | `blocks.{l}.step_bias` | `backbone.layers.{l}.mixer.dt_proj.bias` | the same | `[I]` |
+//! | `blocks.{l}.decay` | `backbone.layers.{l}.mixer.A_log` | the same | `[I, N]` |
+//! | `blocks.{l}.skip` | `backbone.layers.{l}.mixer.D` | the same | `[I]` |
+//! | `blocks.{l}.contract` | `backbone.layers.{l}.mixer.out_proj.weight` | the same | `[D, I]` |
+//! | `final_norm` | `backbone.norm_f.weight` | the same | `[D]` |
+//! | `head` | `lm_head.weight` (absent when tied) | `lm_head.weight` (written out when tied) | `[V, D]` |
 //!
 //! Their equations, checked against ours term by term:
 //! - **The same in meaning**: `in_proj`'s output split in two halves, `x` first then the gate
