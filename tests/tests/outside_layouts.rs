@@ -496,14 +496,36 @@ fn map_errors_name_the_line_at_fault() {
     }
 }
 
+/// The image with its minor version set to `minor` and its CRC re-sealed.
+fn with_minor(image: &[u8], minor: u16) -> Vec<u8> {
+    let mut bytes = image.to_vec();
+    bytes[6..8].copy_from_slice(&minor.to_le_bytes());
+    let body = bytes.len() - 4;
+    let crc = crc32(&bytes[..body]);
+    bytes[body..].copy_from_slice(&crc.to_le_bytes());
+    bytes
+}
+
 #[test]
-fn a_damaged_source_record_is_refused_by_name() {
+fn a_reader_of_version_1_0_reads_a_1_1_image_and_a_damaged_record_is_refused() {
     let dir = tempfile::tempdir().expect("temporary folder");
     let spec = spec(16, 24, 4, 1, true, Dtype::F32);
     let checkpoint = dir.path().join("hub.safetensors");
     make_checkpoint_with(&spec, &checkpoint, &["--layout", HUB]);
     let image = dir.path().join("hub.inkl");
     convert(&checkpoint, &image, &[]);
+    let inspect = |path: &Path| run_json(["inspect".as_ref(), path.as_os_str(), "--json".as_ref()]);
+    let as_1_1 = inspect(&image);
+    // A 1.0 reader checks what today's reader checks at minor version 0 (format.rs: minor
+    // versions only add what old readers may ignore), so the same image read at minor 0 stands
+    // for it: it must be accepted, with the same tensors, and no source.
+    let old = dir.path().join("as-1.0.inkl");
+    std::fs::write(&old, with_minor(&read(&image), 0)).expect("write");
+    let as_1_0 = inspect(&old);
+    assert_eq!(as_1_0["tensors"], as_1_1["tensors"]);
+    assert_eq!(as_1_0["source_layout"], Value::Null);
+    assert_eq!(as_1_1["source_layout"], HUB);
+
     let mut bytes = read(&image);
     let record = bytes.len() - 4 - 16;
     bytes[record] ^= 0x20; // the tag, re-sealed so that only the record is wrong
