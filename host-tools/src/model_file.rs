@@ -4,8 +4,7 @@ use std::path::Path;
 
 use inkling_core::engine::weights::Weights;
 use inkling_core::{Dims, Model};
-use inkling_quantize::name_map::NameMap;
-use inkling_quantize::{Checkpoint, ConvertOptions, FloatModel};
+use inkling_quantize::{Checkpoint, ConvertOptions, FloatModel, ReadOptions};
 
 use crate::error::HostError;
 
@@ -38,7 +37,7 @@ impl ModelFile {
             image_model(&bytes, path)?;
             Ok(ModelFile::Image(bytes))
         } else {
-            let ck = Checkpoint::from_bytes(&bytes, path, &NameMap::identity())?;
+            let ck = Checkpoint::from_bytes(&bytes, path, &ReadOptions::default())?;
             Ok(ModelFile::Float(Box::new(FloatModel::new(ck))))
         }
     }

@@ -1,12 +1,13 @@
 //! Checkpoint → image, with a report of what the conversion cost per tensor.
 
 use half::f16;
-use inkling_core::image::format::Role;
+use inkling_core::image::format::{Role, SourceLayout};
 use inkling_core::image::writer::{self, FloatPayload, Payload, TensorSource};
 
-use crate::checkpoint::{schema_name, Checkpoint};
+use crate::checkpoint::Checkpoint;
 use crate::error::QuantizeError;
 use crate::quantiser::{dequantise, error_stats, quantise_matrix, QuantisedMatrix};
+use crate::schema::schema_name;
 
 /// How to convert.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -63,6 +64,7 @@ impl Stored {
 
 struct Converted {
     tensors: Vec<((Role, usize), Stored)>,
+    source: Option<SourceLayout>,
 }
 
 impl TensorSource for Converted {
@@ -77,6 +79,10 @@ impl TensorSource for Converted {
             Some(Stored::F32(v)) => Payload::Float(FloatPayload::F32(v)),
             None => Payload::Float(FloatPayload::F32(&[])),
         }
+    }
+
+    fn source_layout(&self) -> Option<SourceLayout> {
+        self.source
     }
 }
 
@@ -132,7 +138,10 @@ pub fn convert(
         });
         tensors.push(((role, block), stored));
     }
-    let converted = Converted { tensors };
+    let converted = Converted {
+        tensors,
+        source: checkpoint.source,
+    };
     let len = writer::image_len(&dims, &converted);
     let mut image = vec![0u8; len];
     writer::write_image(&dims, &converted, &mut image).map_err(QuantizeError::Image)?;

@@ -2,6 +2,8 @@
 
 use std::path::PathBuf;
 
+use crate::schema::SCHEMA_SPEC;
+
 /// What can go wrong reading a checkpoint or converting it.
 #[derive(Debug, thiserror::Error)]
 pub enum QuantizeError {
@@ -22,15 +24,20 @@ pub enum QuantizeError {
         reason: String,
     },
     /// A tensor the schema needs is absent.
-    #[error("{path}: tensor `{name}` is missing")]
+    #[error("{path}: tensor {name} is missing{hint} (see the {SCHEMA_SPEC})")]
     Missing {
         /// The file.
         path: PathBuf,
-        /// The schema name (and the mapped name, if a map was given).
+        /// The tensor, quoted (and the mapped name with its map line, if a map was given).
         name: String,
+        /// What the file was read as, when that helps (e.g. the layout recognised).
+        hint: String,
     },
-    /// A tensor is not part of the schema (after the name map).
-    #[error("{path}: tensor `{name}` is not part of the model's schema (map it, or remove it)")]
+    /// A tensor is not part of the schema (after the name map or layout).
+    #[error(
+        "{path}: tensor `{name}` is not part of the model's schema (map it, or remove it; \
+         see the {SCHEMA_SPEC})"
+    )]
     Unexpected {
         /// The file.
         path: PathBuf,
@@ -48,7 +55,9 @@ pub enum QuantizeError {
         dtype: String,
     },
     /// A tensor's shape disagrees with the others.
-    #[error("{path}: tensor `{name}` has shape {found:?}, expected {expected:?}")]
+    #[error(
+        "{path}: tensor `{name}` has shape {found:?}, expected {expected:?}{hint} (see the {SCHEMA_SPEC})"
+    )]
     Shape {
         /// The file.
         path: PathBuf,
@@ -58,6 +67,49 @@ pub enum QuantizeError {
         expected: Vec<usize>,
         /// The shape in the file.
         found: Vec<usize>,
+        /// What the shape suggests, when something does.
+        hint: &'static str,
+    },
+    /// The embedding has more rows than there are byte values.
+    #[error(
+        "{path}: tensor `{name}` has {rows} rows; the model reads bytes, so it takes 256, one per \
+         byte value. If row b is byte value b, `inkling convert --cut-rows` keeps rows 0..256 and drops the \
+         {cut} past them (see the {SCHEMA_SPEC})",
+        cut = rows - 256
+    )]
+    TooManyRows {
+        /// The file.
+        path: PathBuf,
+        /// The tensor's name in the file.
+        name: String,
+        /// Its rows.
+        rows: usize,
+    },
+    /// A bias the equations have no place for holds values other than zero.
+    #[error(
+        "{path}: tensor `{name}` is a bias our equations have no place for, and it is not zero \
+         (element {index} is {value}): the model would change without it (see the {SCHEMA_SPEC})"
+    )]
+    NonZeroBias {
+        /// The file.
+        path: PathBuf,
+        /// The tensor's name in the file.
+        name: String,
+        /// Flat index of the first value other than zero.
+        index: usize,
+        /// That value.
+        value: f32,
+    },
+    /// A norm with a bias: the model was trained with layer norm, not RMS norm.
+    #[error(
+        "{path}: tensor `{name}` is a norm's bias: the checkpoint was trained with layer norm, \
+         which subtracts the mean; our equations use RMS norm (see the {SCHEMA_SPEC})"
+    )]
+    LayerNorm {
+        /// The file.
+        path: PathBuf,
+        /// The tensor's name in the file.
+        name: String,
     },
     /// A tensor holds NaN or infinity.
     #[error("{path}: tensor `{name}` has a non-finite value at element {index}")]
@@ -82,7 +134,9 @@ pub enum QuantizeError {
         limit: usize,
     },
     /// A metadata value could not be read.
-    #[error("{path}: metadata `{key}` = {value:?} is not a positive number")]
+    #[error(
+        "{path}: metadata `{key}` = {value:?} is not a positive number (see the {SCHEMA_SPEC})"
+    )]
     Metadata {
         /// The file.
         path: PathBuf,
@@ -92,10 +146,15 @@ pub enum QuantizeError {
         value: String,
     },
     /// The name-mapping file is malformed.
-    #[error("{path}: name map: {reason}")]
+    #[error(
+        "{path}{}: name map: {reason} (see the {SCHEMA_SPEC})",
+        line.map(|l| format!(" line {l}")).unwrap_or_default()
+    )]
     NameMap {
         /// The map file.
         path: PathBuf,
+        /// The line at fault, when one is.
+        line: Option<usize>,
         /// What is wrong.
         reason: String,
     },

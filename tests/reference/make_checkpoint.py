@@ -9,7 +9,17 @@ log-uniformly in [0.001, 0.1], skip near 1, projections uniform in +-1/sqrt(fan_
 projection further divided by sqrt(blocks).
 
 Optionally also writes a name-mapped copy (same values, other tensor names, other order) and the
-TOML mapping file `[names]` with one `"our name" = "their name"` entry per tensor.
+TOML mapping file `[names]` with one `"our name" = "their name"` entry per tensor, or one per
+role with the `{block}` placeholder.
+
+With --layout, writes the checkpoint instead in the tensor names and shapes of the published
+Mamba reference code (Gu & Dao, github.com/state-spaces/mamba, mamba_ssm/models/
+mixer_seq_simple.py and modules/mamba_simple.py: `backbone.embedding`, `backbone.layers.{l}.norm`,
+`mixer.in_proj`, `mixer.conv1d` as a depthwise Conv1d weight [I, 1, K], `mixer.x_proj`,
+`mixer.dt_proj`, `mixer.A_log`, `mixer.D`, `mixer.out_proj`, `backbone.norm_f`, `lm_head`; names
+from memory of that code) or of its model-hub port (the same but `backbone.embeddings`, and the
+tied head written out as `lm_head.weight`). A_log is the same number as the schema's decay
+(A = -exp(A_log) in both), D is the skip.
 """
 
 import argparse
@@ -82,11 +92,60 @@ def their_name(ours):
     return f"layers.{block}.{field_names[field]}"
 
 
-def write_map_file(path, names):
+def write_map_file(path, names, pattern):
     with open(path, "w", encoding="utf-8") as out:
         out.write("# inkling schema name = name in the foreign checkpoint\n[names]\n")
+        written = set()
         for ours in names:
-            out.write(f'"{ours}" = "{their_name(ours)}"\n')
+            theirs = their_name(ours)
+            if pattern and ours.startswith("blocks."):
+                # One line per role: the block number becomes the placeholder on both sides.
+                block = ours.split(".")[1]
+                ours = ours.replace(f"blocks.{block}.", "blocks.{block}.", 1)
+                theirs = theirs.replace(f"layers.{block}.", "layers.{block}.", 1)
+            if ours not in written:
+                written.add(ours)
+                out.write(f'"{ours}" = "{theirs}"\n')
+
+
+# Per-block names of the outside layouts, after `backbone.layers.{l}.`.
+OUTSIDE_BLOCK_NAMES = {
+    "norm": "norm.weight",
+    "expand": "mixer.in_proj.weight",
+    "conv": "mixer.conv1d.weight",
+    "conv_bias": "mixer.conv1d.bias",
+    "select": "mixer.x_proj.weight",
+    "step": "mixer.dt_proj.weight",
+    "step_bias": "mixer.dt_proj.bias",
+    "decay": "mixer.A_log",
+    "skip": "mixer.D",
+    "contract": "mixer.out_proj.weight",
+}
+
+
+def outside_layout(tensors, layout, extra_rows, rng):
+    """The tensors under the names and shapes of `layout` ("reference-code" or "model-hub")."""
+    embed = tensors["byte_embed"]
+    head = tensors.get("head")
+    if extra_rows:
+        # A padded vocabulary: rows past 256 that no byte reads.
+        embed = np.concatenate([embed, rng.normal(0.0, 1.0, size=(extra_rows, embed.shape[1]))])
+        if head is not None:
+            head = np.concatenate([head, rng.normal(0.0, 1.0, size=(extra_rows, head.shape[1]))])
+    embedding = "backbone.embedding.weight" if layout == "reference-code" else "backbone.embeddings.weight"
+    out = {embedding: embed}
+    for name, values in tensors.items():
+        if name.startswith("blocks."):
+            _, block, field = name.split(".")
+            if field == "conv":
+                values = values[:, None, :]  # a depthwise Conv1d weight: [I, 1, K]
+            out[f"backbone.layers.{block}.{OUTSIDE_BLOCK_NAMES[field]}"] = values
+    out["backbone.norm_f.weight"] = tensors["final_norm"]
+    if head is not None:
+        out["lm_head.weight"] = head
+    elif layout == "model-hub":
+        out["lm_head.weight"] = embed  # the port writes the tied head out
+    return out
 
 
 def main():
@@ -103,19 +162,54 @@ def main():
     parser.add_argument("-o", "--out", required=True, help="checkpoint path")
     parser.add_argument("--mapped-out", help="also write a copy with foreign tensor names here")
     parser.add_argument("--map-file", help="TOML mapping for --mapped-out")
+    parser.add_argument("--map-pattern", action="store_true",
+                        help="write the mapping with one {block} line per role")
+    parser.add_argument("--layout", choices=["schema", "reference-code", "model-hub"], default="schema",
+                        help="tensor names and shapes of the file written with -o")
+    parser.add_argument("--extra-rows", type=int, default=0,
+                        help="outside layouts: embedding (and head) rows past 256")
+    parser.add_argument("--proj-bias", choices=["none", "zero", "random"], default="none",
+                        help="outside layouts: also write in_proj and out_proj biases")
+    parser.add_argument("--norm-bias", action="store_true",
+                        help="outside layouts: also write a bias of block 0's norm (layer norm)")
+    parser.add_argument("--a-log-vector", action="store_true",
+                        help="outside layouts: A_log as one value per channel, [I] (a later block's form)")
+    parser.add_argument("--drop", action="append", default=[],
+                        help="leave out this tensor (its name in the file written); repeatable")
+    parser.add_argument("--no-metadata", action="store_true",
+                        help="write no __metadata__ (as outside trainers do)")
     args = parser.parse_args()
     if (args.mapped_out is None) != (args.map_file is None):
         parser.error("--mapped-out and --map-file go together")
     i = args.i if args.i is not None else 2 * args.d
     r = args.r if args.r is not None else math.ceil(args.d / 16)
     tensors = draw_checkpoint(args.d, i, args.n, args.k, r, args.blocks, args.head == "untied", args.seed)
-    metadata = {"norm_eps": "1e-05"}
-    safetensors_io.write(args.out, tensors, args.dtype, metadata)
+    metadata = {} if args.no_metadata else {"norm_eps": "1e-05"}
+    written = tensors
+    if args.layout != "schema":
+        rng = np.random.default_rng(args.seed + 1)
+        written = outside_layout(tensors, args.layout, args.extra_rows, rng)
+        i = tensors["blocks.0.skip"].shape[0]
+        for block in range(args.blocks):
+            p = f"backbone.layers.{block}.mixer."
+            if args.proj_bias != "none":
+                scale = 0.0 if args.proj_bias == "zero" else 0.1
+                written[p + "in_proj.bias"] = rng.normal(0.0, 1.0, size=2 * i) * scale
+                written[p + "out_proj.bias"] = rng.normal(0.0, 1.0, size=args.d) * scale
+        if args.norm_bias:
+            written["backbone.layers.0.norm.bias"] = rng.normal(0.0, 0.1, size=args.d)
+        if args.a_log_vector:
+            for block in range(args.blocks):
+                name = f"backbone.layers.{block}.mixer.A_log"
+                written[name] = written[name].mean(axis=1)
+    for name in args.drop:
+        del written[name]
+    safetensors_io.write(args.out, written, args.dtype, metadata)
     if args.mapped_out:
         # Reverse order too: a reader must go by name, not by position.
         mapped = {their_name(name): tensors[name] for name in reversed(list(tensors))}
         safetensors_io.write(args.mapped_out, mapped, args.dtype, metadata)
-        write_map_file(args.map_file, tensors)
+        write_map_file(args.map_file, tensors, args.map_pattern)
 
 
 if __name__ == "__main__":

@@ -43,11 +43,60 @@ def rmsnorm(v, weight, eps):
     return v / np.sqrt(np.mean(v * v) + eps) * weight
 
 
+# The published Mamba reference code's tensor names (github.com/state-spaces/mamba,
+# mamba_ssm/models/mixer_seq_simple.py, modules/mamba_simple.py; from memory of that code), and
+# the design's names for the same weights. Its model-hub port differs in `backbone.embeddings`.
+OUTSIDE_BLOCK_NAMES = {
+    "norm.weight": "norm",
+    "mixer.in_proj.weight": "expand",
+    "mixer.in_proj.bias": "expand_bias",
+    "mixer.conv1d.weight": "conv",
+    "mixer.conv1d.bias": "conv_bias",
+    "mixer.x_proj.weight": "select",
+    "mixer.dt_proj.weight": "step",
+    "mixer.dt_proj.bias": "step_bias",
+    "mixer.A_log": "decay",
+    "mixer.D": "skip",
+    "mixer.out_proj.weight": "contract",
+    "mixer.out_proj.bias": "contract_bias",
+}
+
+
+def from_outside_names(tensors):
+    """A checkpoint in the reference code's (or its model-hub port's) names, renamed.
+
+    In that code: `nn.Linear` weights are [out, in] as ours; the depthwise `nn.Conv1d` weight is
+    [I, 1, K] and, with padding K-1 and the output cut to the input's length, computes
+    out[t] = bias + sum_k w[k] x[t-K+1+k] (a cross-correlation), our window oldest -> newest;
+    A = -exp(A_log); D is the skip; `dt_proj`'s bias is added before the softplus; an absent
+    conv bias (trained with conv_bias=False) adds nothing; in_proj/out_proj biases (bias=True) are
+    added after their products. Byte b is embedding row b, so only rows 0..256 are ever read or
+    scored.
+    """
+    embed = tensors.get("backbone.embedding.weight", tensors.get("backbone.embeddings.weight"))
+    out = {"byte_embed": embed[:256], "final_norm": tensors["backbone.norm_f.weight"]}
+    if "lm_head.weight" in tensors:
+        out["head"] = tensors["lm_head.weight"][:256]
+    for name, values in tensors.items():
+        if name.startswith("backbone.layers."):
+            block, rest = name[len("backbone.layers."):].split(".", 1)
+            field = OUTSIDE_BLOCK_NAMES[rest]
+            if field == "conv":
+                values = values[:, 0, :]
+            out[f"blocks.{block}.{field}"] = values
+    for name in list(out):
+        if name.endswith(".skip"):
+            out.setdefault(name.replace(".skip", ".conv_bias"), np.zeros(out[name].shape[0]))
+    return out
+
+
 class Model:
     """The checkpoint's tensors in float64, dimensions read from the shapes."""
 
     def __init__(self, path):
         tensors, metadata = safetensors_io.read(path)
+        if "byte_embed" not in tensors:
+            tensors = from_outside_names(tensors)
         self.eps = float(metadata.get("norm_eps", DEFAULT_EPS))
         self.embed = tensors["byte_embed"]
         self.d = self.embed.shape[1]
@@ -58,8 +107,11 @@ class Model:
             p = f"blocks.{len(self.blocks)}."
             block = {name: tensors[p + name] for name in
                      ("norm", "expand", "conv", "conv_bias", "select", "step", "step_bias",
-                      "decay", "skip", "contract")}
+                      "decay", "skip", "contract") if p + name in tensors}
             block["i"] = block["skip"].shape[0]
+            # Biases only the outside layouts may carry; absent means none (zeros).
+            for name, size in (("expand_bias", 2 * block["i"]), ("contract_bias", self.d)):
+                block[name] = tensors.get(p + name, np.zeros(size))
             block["k"] = block["conv"].shape[1]
             block["r"] = block["step"].shape[1]
             block["n"] = block["decay"].shape[1]
@@ -96,7 +148,7 @@ def block_step(block, state, u, eps):
     # Pre-norm.
     hn = rmsnorm(u, block["norm"], eps)
     # Input projection: rows 0..I give x, rows I..2I give the gate z.
-    xz = block["expand"] @ hn
+    xz = block["expand"] @ hn + block["expand_bias"]
     x_in, z = xz[:i], xz[i:]
     # Causal depthwise conv over the window oldest -> newest; conv[:, K-1] meets the newest input.
     window = np.concatenate([state.window, x_in[:, None]], axis=1)  # [I, K]
@@ -117,7 +169,7 @@ def block_step(block, state, u, eps):
     # Eq. (2b) plus the skip D x_t, then the SiLU(z) gate.
     y = (state.h @ c_sel + block["skip"] * x) * silu(z)
     # Output projection back to the residual width.
-    return block["contract"] @ y
+    return block["contract"] @ y + block["contract_bias"]
 
 
 def run(model, text):

@@ -4,7 +4,6 @@
 use std::path::Path;
 
 use inkling_host::commands::train::Preset;
-use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions, FloatModel};
 use inkling_train::checkpoint_file::write_checkpoint;
 use inkling_train::model_params::{init_params, Layout};
@@ -17,7 +16,8 @@ pub fn preset_model(preset: Preset, seed: u64, dir: &Path) -> (FloatModel, Vec<u
     let params: Vec<f32> = init_params(&layout, &mut rng);
     let path = dir.join(format!("{}.safetensors", preset.name()));
     write_checkpoint(&path, &layout, &params, preset.name(), 0).expect("write the checkpoint");
-    let ck = Checkpoint::load(&path, &NameMap::identity()).expect("read the checkpoint back");
+    let ck = Checkpoint::load(&path, &inkling_quantize::ReadOptions::default())
+        .expect("read the checkpoint back");
     let (image, _) = convert(&ck, &ConvertOptions::default()).expect("convert");
     (FloatModel::new(ck), image)
 }

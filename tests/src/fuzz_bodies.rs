@@ -14,7 +14,6 @@ use inkling_core::image::example::tiny_image;
 use inkling_core::image::format::{Role, CRC_LEN, VOCAB};
 use inkling_core::session::{SearchOptions, Session, MAX_WORD_LEN};
 use inkling_core::{Engine, Error, KeyMap, Model, Scratch, Suggestions};
-use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 
 use crate::session_buffers::SessionBuffers;
@@ -269,7 +268,9 @@ fn check_search(
 /// accepted converts, and the image it gives loads.
 pub fn checkpoint_loader(data: &[u8]) {
     let path = Path::new("fuzz-input.safetensors");
-    let Ok(checkpoint) = Checkpoint::from_bytes(data, path, &NameMap::identity()) else {
+    let Ok(checkpoint) =
+        Checkpoint::from_bytes(data, path, &inkling_quantize::ReadOptions::default())
+    else {
         return;
     };
     for options in [

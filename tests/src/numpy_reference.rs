@@ -31,20 +31,32 @@ pub fn run_script<S: AsRef<std::ffi::OsStr>>(script: &str, args: &[S]) -> Vec<u8
 
 /// Write the random checkpoint `spec` to `out`.
 pub fn make_checkpoint(spec: &CheckpointSpec, out: &Path) {
+    make_checkpoint_with(spec, out, &[]);
+}
+
+/// Write the random checkpoint `spec` to `out` with more options of `make_checkpoint.py`
+/// (e.g. `--layout reference-code`, `--extra-rows 8`).
+pub fn make_checkpoint_with(spec: &CheckpointSpec, out: &Path, options: &[&str]) {
     let mut args = spec.script_args();
+    args.extend(options.iter().map(|o| o.to_string()));
     args.extend(["-o".into(), out.display().to_string()]);
     run_script("make_checkpoint.py", &args);
 }
 
 /// Write `spec` to `out`, the same values under foreign names to `mapped_out`, and the TOML
-/// name mapping (schema name = foreign name) to `map_file`.
+/// name mapping (schema name = foreign name) to `map_file`: one line per tensor, or with
+/// `pattern` one `{block}` line per role.
 pub fn make_mapped_checkpoint(
     spec: &CheckpointSpec,
     out: &Path,
     mapped_out: &Path,
     map_file: &Path,
+    pattern: bool,
 ) {
     let mut args = spec.script_args();
+    if pattern {
+        args.push("--map-pattern".into());
+    }
     for (flag, path) in [
         ("-o", out),
         ("--mapped-out", mapped_out),

@@ -8,7 +8,6 @@ use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
 use std::time::{Duration, Instant};
 
-use inkling_quantize::name_map::NameMap;
 use inkling_quantize::Checkpoint;
 use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
 use inkling_tests::inkling_cli::inkling_binary;
@@ -230,7 +229,9 @@ fn train_killed_leaves_whole_checkpoints() {
             outcomes[outcome] += 1;
             if p == &out && outcome == 2 {
                 let bytes = read(p).unwrap_or_default();
-                if let Err(e) = Checkpoint::from_bytes(&bytes, p, &NameMap::identity()) {
+                if let Err(e) =
+                    Checkpoint::from_bytes(&bytes, p, &inkling_quantize::ReadOptions::default())
+                {
                     panic!("kill {kill} after {wait:?}: the new checkpoint does not load: {e}");
                 }
             }

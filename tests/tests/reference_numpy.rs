@@ -72,7 +72,7 @@ fn name_mapped_checkpoint_converts_like_the_original() {
     let original = dir.path().join("ours.safetensors");
     let mapped = dir.path().join("theirs.safetensors");
     let map_file = dir.path().join("names.toml");
-    make_mapped_checkpoint(&spec, &original, &mapped, &map_file);
+    make_mapped_checkpoint(&spec, &original, &mapped, &map_file, false);
 
     let original_image = dir.path().join("ours.inkl");
     let mapped_image = dir.path().join("theirs.inkl");

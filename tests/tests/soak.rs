@@ -38,7 +38,6 @@ use inkling_core::image::format::{Role, VOCAB};
 use inkling_core::image::views::{Floats, QuantMatrix};
 use inkling_core::session::{is_boundary, SearchOptions, Session, DEFAULT_HISTORY, MAX_WORD_LEN};
 use inkling_core::{Error, KeyMap, Model, Suggestions};
-use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
 use inkling_tests::numpy_reference::make_checkpoint;
@@ -415,7 +414,8 @@ fn demo_shape_model() {
         seed,
     };
     make_checkpoint(&spec, &path);
-    let checkpoint = Checkpoint::load(Path::new(&path), &NameMap::identity()).expect("load");
+    let checkpoint = Checkpoint::load(Path::new(&path), &inkling_quantize::ReadOptions::default())
+        .expect("load");
     let (image, _) = convert(&checkpoint, &ConvertOptions::default()).expect("convert");
     soak(&image, DEMO_SHAPE_BYTES, 400, seed, "demo-shape model");
 }

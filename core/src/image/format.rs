@@ -1,13 +1,18 @@
-//! The image format, version 1.0, byte by byte.
+//! The image format, version 1.1, byte by byte.
 //!
 //! All integers are little-endian. Offsets are from the first byte of the image.
+//!
+//! Versions: 1.0 is the header, table, payloads and CRC below. 1.1 adds the
+//! [source record](#source-record-version-11) before the CRC, which a 1.0 reader ignores (it
+//! lies past every payload, inside the length and the CRC). A writer with no source to record
+//! writes 1.0, byte for byte what earlier writers wrote.
 //!
 //! ## Header (64 bytes)
 //! | offset | size | field | rule |
 //! |---|---|---|---|
 //! | 0 | 4 | magic | `b"INKL"` |
 //! | 4 | 2 | major version | `1`; a reader rejects any other major |
-//! | 6 | 2 | minor version | any; minor versions only add what old readers may ignore |
+//! | 6 | 2 | minor version | any; minor versions only add what old readers may ignore; 1 when a source record is present |
 //! | 8 | 4 | image length | total bytes, including the trailing CRC |
 //! | 12 | 4 | `d_model` (D) | 1 ..= [`MAX_D_MODEL`] |
 //! | 16 | 4 | `d_inner` (I) | 1 ..= [`MAX_D_INNER`] |
@@ -46,6 +51,19 @@
 //! (one per row when G = 0). The decay tensor holds the continuous-time rate
 //! `A = -exp(decay)` in f32, so the device never recomputes the exponential.
 //!
+//! ## Source record (version 1.1)
+//! In an image of minor version 1 or later, the [`SOURCE_RECORD_LEN`] bytes before the CRC say
+//! which outside checkpoint layout the converter recognised; no payload may reach into them.
+//! | offset | size | field | rule |
+//! |---|---|---|---|
+//! | 0 | 4 | tag | [`SOURCE_RECORD_TAG`] |
+//! | 4 | 2 | layout | [`SourceLayout`] code; a code this reader does not know reads as not recorded |
+//! | 6 | 10 | reserved | zero |
+//!
+//! It records where the weights came from and changes nothing in how the model runs. The
+//! layouts themselves are specified with the checkpoint schema (in the converter's crate,
+//! `inkling-quantize`, module `schema`).
+//!
 //! ## Trailer
 //! The last 4 bytes are the CRC-32/ISO-HDLC of every byte before them.
 
@@ -66,15 +84,33 @@ pub const MAGIC: [u8; 4] = *b"INKL";
 /// # Ok::<(), inkling_core::Error>(())
 /// ```
 pub const MAJOR_VERSION: u16 = 1;
-/// The minor version this writer writes.
+/// The newest minor version this reader knows: the writer writes it when the image carries a
+/// source record, and minor version 0 otherwise.
 ///
 /// ```
 /// use inkling_core::{Model, image::format::{MAJOR_VERSION, MINOR_VERSION}};
 /// # let image = inkling_core::image::example::tiny_image();
-/// assert_eq!(Model::from_bytes(&image)?.version(), (MAJOR_VERSION, MINOR_VERSION));
+/// assert_eq!(MINOR_VERSION, 1);
+/// // The tiny image records no source, so it is written as 1.0.
+/// assert_eq!(Model::from_bytes(&image)?.version(), (MAJOR_VERSION, 0));
 /// # Ok::<(), inkling_core::Error>(())
 /// ```
-pub const MINOR_VERSION: u16 = 0;
+pub const MINOR_VERSION: u16 = 1;
+/// Size of the source record (version 1.1) in bytes: a multiple of [`ALIGN`], so the payloads
+/// before it keep their alignment.
+///
+/// ```
+/// use inkling_core::image::format::{ALIGN, SOURCE_RECORD_LEN};
+/// assert_eq!(SOURCE_RECORD_LEN % ALIGN, 0);
+/// ```
+pub const SOURCE_RECORD_LEN: usize = 16;
+/// The four bytes a source record starts with.
+///
+/// ```
+/// use inkling_core::image::format::SOURCE_RECORD_TAG;
+/// assert_eq!(&SOURCE_RECORD_TAG, b"FROM");
+/// ```
+pub const SOURCE_RECORD_TAG: [u8; 4] = *b"FROM";
 /// Size of the fixed header in bytes.
 ///
 /// ```
@@ -396,6 +432,70 @@ impl Role {
     /// ```
     pub const fn is_block_role(self) -> bool {
         !matches!(self, Role::ByteEmbed | Role::FinalNorm | Role::Head)
+    }
+}
+
+/// An outside checkpoint layout the converter recognised, as the source record stores it.
+///
+/// ```
+/// use inkling_core::image::format::SourceLayout;
+/// let code = SourceLayout::ModelHubPort.code();
+/// assert_eq!(SourceLayout::from_code(code), Some(SourceLayout::ModelHubPort));
+/// assert_eq!(SourceLayout::ReferenceCode.name(), "reference-code");
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SourceLayout {
+    /// The tensor names and shapes of the published Mamba reference code
+    /// (`backbone.embedding.weight`, `backbone.layers.{l}.mixer.in_proj.weight`, ...).
+    ReferenceCode,
+    /// Those of its widely used model-hub port (`backbone.embeddings.weight`, a written-out head).
+    ModelHubPort,
+}
+
+impl SourceLayout {
+    /// Both layouts, in code order.
+    ///
+    /// ```
+    /// use inkling_core::image::format::SourceLayout;
+    /// assert!(SourceLayout::ALL.iter().all(|l| SourceLayout::from_code(l.code()) == Some(*l)));
+    /// ```
+    pub const ALL: [SourceLayout; 2] = [SourceLayout::ReferenceCode, SourceLayout::ModelHubPort];
+
+    /// The code stored in the source record.
+    ///
+    /// ```
+    /// use inkling_core::image::format::SourceLayout;
+    /// assert_eq!(SourceLayout::ReferenceCode.code(), 1);
+    /// ```
+    pub const fn code(self) -> u16 {
+        match self {
+            SourceLayout::ReferenceCode => 1,
+            SourceLayout::ModelHubPort => 2,
+        }
+    }
+
+    /// The layout with this code, if this reader knows it.
+    ///
+    /// ```
+    /// use inkling_core::image::format::SourceLayout;
+    /// assert_eq!(SourceLayout::from_code(2), Some(SourceLayout::ModelHubPort));
+    /// assert_eq!(SourceLayout::from_code(0), None);
+    /// ```
+    pub fn from_code(code: u16) -> Option<SourceLayout> {
+        SourceLayout::ALL.into_iter().find(|l| l.code() == code)
+    }
+
+    /// A short name for messages and options.
+    ///
+    /// ```
+    /// use inkling_core::image::format::SourceLayout;
+    /// assert_eq!(SourceLayout::ModelHubPort.name(), "model-hub");
+    /// ```
+    pub const fn name(self) -> &'static str {
+        match self {
+            SourceLayout::ReferenceCode => "reference-code",
+            SourceLayout::ModelHubPort => "model-hub",
+        }
     }
 }
 

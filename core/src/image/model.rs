@@ -3,8 +3,8 @@
 use super::checksum::crc32;
 use super::dims::Dims;
 use super::format::{
-    self, align_up, ElementType, EntryDecodeError, Role, TensorEntry, CRC_LEN, ENTRY_LEN,
-    HEADER_LEN, MAGIC, MAJOR_VERSION,
+    self, align_up, ElementType, EntryDecodeError, Role, SourceLayout, TensorEntry, CRC_LEN,
+    ENTRY_LEN, HEADER_LEN, MAGIC, MAJOR_VERSION, SOURCE_RECORD_LEN, SOURCE_RECORD_TAG,
 };
 use super::views::{Floats, QuantMatrix};
 use crate::error::{Error, TensorProblem};
@@ -157,6 +157,7 @@ fn check_entry(
     dims: &Dims,
     index: usize,
     table_end: usize,
+    payload_end: usize,
 ) -> Result<(), TensorProblem> {
     let raw = entry_at(bytes, index).ok_or(TensorProblem::OutOfBounds)?;
     let e = TensorEntry::decode(&raw).map_err(|err| match err {
@@ -172,7 +173,7 @@ fn check_entry(
     if e.rows as usize != rows || e.cols as usize != cols {
         return Err(TensorProblem::BadShape);
     }
-    let hi = bytes.len() - CRC_LEN;
+    let hi = payload_end;
     let count = rows * cols;
     if role.is_quantised() {
         let scale = match (e.element, e.scale) {
@@ -263,18 +264,33 @@ impl<'a> Model<'a> {
             return Err(Error::BadChecksum { stored, computed });
         }
         let dims = read_header(bytes)?;
+        // From minor version 1 on, the source record sits between the payloads and the CRC.
+        let payload_end = if minor >= 1 {
+            let record = body_len.saturating_sub(SOURCE_RECORD_LEN);
+            if bytes.get(record..record + 4) != Some(&SOURCE_RECORD_TAG[..]) {
+                return Err(Error::BadHeader {
+                    field: "source record",
+                    offset: record,
+                });
+            }
+            record
+        } else {
+            body_len
+        };
         let table_end = HEADER_LEN + dims.tensor_count() * ENTRY_LEN;
-        if align_up(table_end).is_none_or(|end| end > body_len) {
+        if align_up(table_end).is_none_or(|end| end > payload_end) {
             return Err(Error::Truncated {
                 needed: table_end + CRC_LEN,
                 actual: bytes.len(),
             });
         }
         for index in 0..dims.tensor_count() {
-            check_entry(bytes, &dims, index, table_end).map_err(|problem| Error::BadTensor {
-                index,
-                problem,
-                offset: HEADER_LEN + index * ENTRY_LEN,
+            check_entry(bytes, &dims, index, table_end, payload_end).map_err(|problem| {
+                Error::BadTensor {
+                    index,
+                    problem,
+                    offset: HEADER_LEN + index * ENTRY_LEN,
+                }
             })?;
         }
         Ok(Model { bytes, dims })
@@ -322,11 +338,31 @@ impl<'a> Model<'a> {
     /// use inkling_core::image::format::{MAJOR_VERSION, MINOR_VERSION};
     /// # let image = inkling_core::image::example::tiny_image();
     /// let model = inkling_core::Model::from_bytes(&image)?;
-    /// assert_eq!(model.version(), (MAJOR_VERSION, MINOR_VERSION));
+    /// // No source record: written as 1.0 (1.1 adds the record).
+    /// assert_eq!(model.version(), (MAJOR_VERSION, MINOR_VERSION - 1));
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn version(&self) -> (u16, u16) {
         (u16_at(self.bytes, 4), u16_at(self.bytes, 6))
+    }
+
+    /// The outside checkpoint layout the converter recognised, from the source record of a
+    /// version 1.1 image; `None` for a 1.0 image (the schema's own names, or a name map) and
+    /// for a layout code this reader does not know.
+    ///
+    /// ```
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// let model = inkling_core::Model::from_bytes(&image)?;
+    /// assert_eq!(model.source_layout(), None); // written from the schema's own names
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn source_layout(&self) -> Option<SourceLayout> {
+        let (_, minor) = self.version();
+        if minor == 0 {
+            return None;
+        }
+        let code_at = self.bytes.len() - CRC_LEN - SOURCE_RECORD_LEN + 4;
+        SourceLayout::from_code(u16_at(self.bytes, code_at))
     }
 
     /// The CRC-32 stored at the end of the image.

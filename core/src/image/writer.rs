@@ -6,7 +6,8 @@ use half::f16;
 use super::checksum::crc32;
 use super::dims::Dims;
 use super::format::{
-    self, align_up, ElementType, Role, TensorEntry, CRC_LEN, ENTRY_LEN, HEADER_LEN,
+    self, align_up, ElementType, Role, SourceLayout, TensorEntry, CRC_LEN, ENTRY_LEN, HEADER_LEN,
+    SOURCE_RECORD_LEN,
 };
 use super::model::Model;
 use crate::error::Error;
@@ -102,6 +103,33 @@ impl FloatPayload<'_> {
 pub trait TensorSource {
     /// The payload of `role` in `block` (block is 0 for whole-model roles).
     fn payload(&self, role: Role, block: usize) -> Payload<'_>;
+
+    /// The outside checkpoint layout the tensors were read from, if any: the writer then adds
+    /// a source record and writes minor version 1 (see [`format`]).
+    ///
+    /// ```
+    /// use inkling_core::image::{example::*, format::{Role, SourceLayout}, writer::*};
+    /// struct FromReference(TinyTensors);
+    /// impl TensorSource for FromReference {
+    ///     fn payload(&self, role: Role, block: usize) -> Payload<'_> {
+    ///         self.0.payload(role, block)
+    ///     }
+    ///     fn source_layout(&self) -> Option<SourceLayout> {
+    ///         Some(SourceLayout::ReferenceCode)
+    ///     }
+    /// }
+    /// let (dims, tensors) = tiny_tensors();
+    /// assert_eq!(tensors.source_layout(), None); // the default: nothing recorded
+    /// let mut out = [0u8; TINY_IMAGE_LEN + 16];
+    /// let len = write_image(&dims, &FromReference(tensors), &mut out)?;
+    /// let model = inkling_core::Model::from_bytes(&out[..len])?;
+    /// assert_eq!(model.source_layout(), Some(SourceLayout::ReferenceCode));
+    /// assert_eq!(model.version(), (1, 1));
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    fn source_layout(&self) -> Option<SourceLayout> {
+        None
+    }
 }
 
 /// The canonical `(role, block)` sequence for these dimensions.
@@ -145,7 +173,11 @@ pub fn image_len(dims: &Dims, tensors: &dyn TensorSource) -> usize {
             at = align_up(at + scales).unwrap_or(usize::MAX);
         }
     }
-    at + CRC_LEN
+    let record = match tensors.source_layout() {
+        Some(_) => SOURCE_RECORD_LEN,
+        None => 0,
+    };
+    at + record + CRC_LEN
 }
 
 fn put(out: &mut [u8], at: usize, bytes: &[u8]) -> Result<(), Error> {
@@ -210,7 +242,13 @@ pub fn write_image(
     ];
     put(out, 0, &format::MAGIC)?;
     put(out, 4, &format::MAJOR_VERSION.to_le_bytes())?;
-    put(out, 6, &format::MINOR_VERSION.to_le_bytes())?;
+    let source = tensors.source_layout();
+    let minor: u16 = if source.is_some() {
+        format::MINOR_VERSION
+    } else {
+        0
+    };
+    put(out, 6, &minor.to_le_bytes())?;
     for (at, v) in header {
         put(out, at, &v.to_le_bytes())?;
     }
@@ -275,6 +313,11 @@ pub fn write_image(
         put(out, HEADER_LEN + index * ENTRY_LEN, &raw)?;
     }
     let body = len - CRC_LEN;
+    if let Some(layout) = source {
+        let record = body - SOURCE_RECORD_LEN;
+        put(out, record, &format::SOURCE_RECORD_TAG)?;
+        put(out, record + 4, &layout.code().to_le_bytes())?;
+    }
     let crc = crc32(out.get(..body).unwrap_or(&[]));
     put(out, body, &crc.to_le_bytes())?;
     Model::from_bytes(out)?;

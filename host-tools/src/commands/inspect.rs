@@ -40,9 +40,13 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
         .collect();
     let session = args.beams.map(|k| crate::commands::session_ram(&d, k));
     let (major, minor) = model.version();
+    // Which checkpoint layout the converter read (image format 1.1); absent: the schema's own
+    // names or a name map.
+    let source_layout = model.source_layout().map(|l| l.name());
     let v = serde_json::json!({
         "image": args.image,
         "version": format!("{major}.{minor}"),
+        "source_layout": source_layout,
         "crc32": format!("{:#010x}", model.checksum()),
         "dims": {
             "d_model": d.d_model, "d_inner": d.d_inner, "d_state": d.d_state,
@@ -66,6 +70,13 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
             "{}: image version {major}.{minor}, CRC-32 {:#010x}",
             args.image.display(),
             model.checksum()
+        );
+        println!(
+            "converted from: {}",
+            source_layout.map_or(
+                "the checkpoint schema's names (or a name map)".into(),
+                |l| { format!("the {l} checkpoint layout") }
+            )
         );
         println!(
             "blocks {}, d_model {}, d_inner {}, d_state {}, d_conv {}, dt_rank {}, head {}, scales {}",
