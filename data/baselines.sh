@@ -2,7 +2,7 @@
 # Compression baselines for the text files, in bits per byte (8 x compressed bytes / original
 # bytes): gzip -9, xz -9e, and the order-0 entropy of the byte histogram. A model's
 # cross-entropy on the same file, in bits per byte, is directly comparable.
-# Usage: data/baselines.sh [FILE...]   (default: the scenario and open train and held-out files;
+# Usage: data/baselines.sh [FILE...]   (default: the scenario's two train and held-out pairs;
 # given four files, read as train, held-out, train, held-out, it also measures each held-out
 # file after its train file)
 set -euo pipefail
@@ -10,7 +10,7 @@ set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 if (($# == 0)); then
     set -- "$here/scenario/train.txt" "$here/scenario/heldout.txt" \
-        "$here/open/kjv-train.txt" "$here/open/kjv-heldout.txt"
+        "$here/scenario/logbook-train.txt" "$here/scenario/logbook-heldout.txt"
 fi
 
 bpb() { awk -v c="$1" -v n="$2" 'BEGIN { printf "%.3f", 8 * c / n }'; }
