@@ -15,7 +15,9 @@ use std::path::{Path, PathBuf};
 use indicatif::{ProgressBar, ProgressStyle};
 use inkling_core::session::DEFAULT_MAX_STEPS;
 
-use super::suggest::MAX_COUNT;
+use inkling_core::session::{WordFilter, WordList};
+
+use super::suggest::{read_word_list, MAX_COUNT};
 use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
 use crate::keystroke_savings::simulation::whole_words;
@@ -57,6 +59,10 @@ pub struct EvalArgs {
     /// boundary): the model takes a search, up to --max-steps engine steps, per key or word.
     #[arg(long, default_value_t = 5000)]
     pub max_bytes: usize,
+    /// The only words the model may offer (for --savings and --keypad): a word list, one
+    /// word per line, matched as the session matches lexicons.
+    #[arg(long, value_name = "FILE")]
+    pub lexicon: Option<PathBuf>,
     /// Engine steps each search may take (for --savings and --keypad).
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
@@ -128,15 +134,22 @@ fn progress_bar(label: &str, len: usize) -> ProgressBar {
 fn savings(
     args: &EvalArgs,
     baseline: &mut FrequencyBaseline,
+    filter: WordFilter<'_>,
     text: &[u8],
 ) -> Result<Comparison, HostError> {
     let text = whole_words(text, args.max_bytes);
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("keystrokes", text.len());
     let found = file.with_weights(|w| {
-        compare(w, baseline, text, args.count, args.max_steps, |at| {
-            bar.set_position(at as u64)
-        })
+        compare(
+            w,
+            baseline,
+            text,
+            args.count,
+            args.max_steps,
+            filter,
+            |at| bar.set_position(at as u64),
+        )
     });
     bar.finish_and_clear();
     found.map_err(|source| HostError::Image {
@@ -149,13 +162,14 @@ fn savings(
 fn keypad(
     args: &EvalArgs,
     baseline: &FrequencyBaseline,
+    filter: WordFilter<'_>,
     text: &[u8],
 ) -> Result<(KeypadCount, KeypadCount), HostError> {
     let text = whole_words(text, args.max_bytes);
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("12-key", text.len());
     let found = file.with_weights(|w| {
-        keypad_entry(w, baseline, text, args.max_steps, |at| {
+        keypad_entry(w, baseline, text, args.max_steps, filter, |at| {
             bar.set_position(at as u64)
         })
     });
@@ -326,6 +340,17 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
         texts.push(text);
     }
     let mut baseline = baseline(args)?;
+    let lexicon = args.lexicon.as_deref().map(read_word_list).transpose()?;
+    let filter = WordFilter {
+        lexicon: match (&args.lexicon, &lexicon) {
+            (Some(path), Some(bytes)) => Some(
+                WordList::new(bytes)
+                    .map_err(|e| HostError::Usage(format!("{}: {e}", path.display())))?,
+            ),
+            _ => None,
+        },
+        ..WordFilter::default()
+    };
     let mut reports = Vec::with_capacity(texts.len());
     for (path, text) in args.text.iter().zip(&texts) {
         let (bits_per_byte, engine) = score(&args.model, text, "model")?;
@@ -336,11 +361,11 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
         let compressors =
             YARDSTICKS.map(|(program, flags)| compressors::bits_per_byte(program, flags, text));
         let savings = match (&mut baseline, args.savings) {
-            (Some(b), true) => Some(savings(args, b, text)?),
+            (Some(b), true) => Some(savings(args, b, filter, text)?),
             _ => None,
         };
         let keypad = match (&baseline, args.keypad) {
-            (Some(b), true) => Some(keypad(args, b, text)?),
+            (Some(b), true) => Some(keypad(args, b, filter, text)?),
             _ => None,
         };
         reports.push(TextReport {

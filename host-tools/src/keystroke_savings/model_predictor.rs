@@ -1,7 +1,7 @@
 //! The model's typing session as a [`Predictor`].
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{SearchOptions, Session};
+use inkling_core::session::{SearchOptions, Session, WordFilter};
 use inkling_core::Error;
 
 use super::simulation::Predictor;
@@ -12,16 +12,19 @@ use super::simulation::Predictor;
 pub struct ModelPredictor<'b, W: Weights, const K: usize> {
     session: Session<'b, W, K>,
     max_steps: usize,
+    filter: WordFilter<'b>,
     /// Engine steps taken by the searches so far.
     pub search_steps: usize,
 }
 
 impl<'b, W: Weights, const K: usize> ModelPredictor<'b, W, K> {
-    /// A predictor over `session`, each search bounded by `max_steps` engine steps.
-    pub fn new(session: Session<'b, W, K>, max_steps: usize) -> Self {
+    /// A predictor over `session`, each search bounded by `max_steps` engine steps and
+    /// keeping to the words `filter` allows.
+    pub fn new(session: Session<'b, W, K>, max_steps: usize, filter: WordFilter<'b>) -> Self {
         ModelPredictor {
             session,
             max_steps,
+            filter,
             search_steps: 0,
         }
     }
@@ -40,6 +43,7 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
     fn offer(&mut self, _prefix: &[u8], count: usize) -> Result<Vec<Vec<u8>>, Error> {
         let options = SearchOptions {
             max_steps: self.max_steps,
+            filter: self.filter,
             ..SearchOptions::new(count.min(K))
         };
         let found = self.session.suggest(&options)?;

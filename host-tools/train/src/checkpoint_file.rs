@@ -9,7 +9,8 @@ use safetensors::{Dtype, SafeTensors};
 
 use inkling_core::image::format::{Role, VOCAB};
 use inkling_core::Dims;
-use inkling_quantize::checkpoint::{schema_name, DEFAULT_NORM_EPS};
+use inkling_quantize::checkpoint::DEFAULT_NORM_EPS;
+use inkling_quantize::schema::schema_name;
 
 use crate::adamw::{AdamW, AdamWSettings};
 use crate::error::TrainError;

@@ -9,7 +9,7 @@ use rand_distr::{Distribution, Normal};
 use inkling_core::image::format::Role;
 use inkling_core::image::writer::canonical_order;
 use inkling_core::Dims;
-use inkling_quantize::checkpoint::schema_name;
+use inkling_quantize::schema::schema_name;
 
 use crate::real::Real;
 
