@@ -142,6 +142,14 @@ impl Checkpoint {
             path: path.to_path_buf(),
             reason: e.to_string(),
         };
+        if let Some(lie) = crate::header_lengths::first_mismatch(bytes) {
+            return Err(QuantizeError::TensorLength {
+                path: path.to_path_buf(),
+                name: lie.name,
+                needed: lie.needed,
+                given: lie.given,
+            });
+        }
         let st = SafeTensors::deserialize(bytes).map_err(container)?;
         let (_, metadata) = SafeTensors::read_metadata(bytes).map_err(container)?;
         let norm_eps = match metadata.metadata().as_ref().and_then(|m| m.get("norm_eps")) {

@@ -11,6 +11,7 @@ pub mod checkpoint;
 pub mod convert;
 pub mod error;
 pub mod float_model;
+pub mod header_lengths;
 pub mod name_map;
 pub mod quantiser;
 

@@ -7,6 +7,7 @@ use inkling_quantize::name_map::NameMap;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 
 /// Arguments of `inkling convert`.
 #[derive(Debug, clap::Args)]
@@ -32,6 +33,7 @@ pub struct ConvertArgs {
 
 /// Runs `inkling convert`.
 pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
+    check(&args.checkpoint, Wanted::Checkpoint)?;
     let map = match &args.map {
         Some(p) => NameMap::load(p)?,
         None => NameMap::identity(),

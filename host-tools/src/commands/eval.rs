@@ -14,8 +14,8 @@ use std::path::{Path, PathBuf};
 use indicatif::{ProgressBar, ProgressStyle};
 use inkling_core::session::DEFAULT_MAX_STEPS;
 
-use super::suggest::MAX_COUNT;
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 use crate::keystroke_savings::simulation::whole_words;
 use crate::keystroke_savings::{compare, Comparison, FrequencyBaseline};
 use crate::model_file::ModelFile;
@@ -71,14 +71,8 @@ fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), H
     Ok((bpb, file.engine_name()))
 }
 
-/// The keystroke savings of `args.model` and of the baseline on the start of `text`.
-fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
-    if args.count > MAX_COUNT {
-        return Err(HostError::Usage(format!(
-            "--count {} is more than the {MAX_COUNT} a session holds",
-            args.count
-        )));
-    }
+/// The baseline's corpus for `--savings`: given, and not the `--text` file itself.
+fn baseline_corpus(args: &EvalArgs) -> Result<&Path, HostError> {
     let corpus_path = args.baseline_corpus.as_ref().ok_or_else(|| {
         HostError::Usage(
             "--savings needs --baseline-corpus FILE: the baseline's word counts must come \
@@ -97,6 +91,12 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
             corpus_path.display()
         )));
     }
+    Ok(corpus_path)
+}
+
+/// The keystroke savings of `args.model` and of the baseline on the start of `text`.
+fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
+    let corpus_path = baseline_corpus(args)?;
     let corpus = std::fs::read(corpus_path).map_err(HostError::io(corpus_path))?;
     let mut baseline = FrequencyBaseline::from_corpus(&corpus);
     let text = whole_words(text, args.max_bytes);
@@ -118,8 +118,23 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
     })
 }
 
+/// Checks the arguments before any work: the numbers of `--savings` and the kind of the
+/// `--against` file (so that a wrong file fails at once, not after the first model's score).
+fn check_args(args: &EvalArgs) -> Result<(), HostError> {
+    if args.savings {
+        super::checks::count("--count", args.count)?;
+        super::checks::at_least_one("--max-bytes", args.max_bytes)?;
+        baseline_corpus(args)?;
+    }
+    if let Some(against) = &args.against {
+        check(against, Wanted::Model)?;
+    }
+    Ok(())
+}
+
 /// Runs `inkling eval`.
 pub fn run(args: &EvalArgs) -> Result<(), HostError> {
+    check_args(args)?;
     let text = std::fs::read(&args.text).map_err(HostError::io(&args.text))?;
     if text.len() < 2 {
         return Err(HostError::Usage(format!(
