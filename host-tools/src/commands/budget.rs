@@ -181,9 +181,8 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
             },
         });
         if found.is_empty() {
-            v["hint"] = serde_json::json!(nothing_fits_hint(
-                &model, args.flash, args.ram, args.beams
-            ));
+            v["hint"] =
+                serde_json::json!(nothing_fits_hint(&model, args.flash, args.ram, args.beams));
         }
         println!("{v}");
         return Ok(());
@@ -201,7 +200,10 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         model.stack_bytes + STACK_MARGIN
     );
     if found.is_empty() {
-        println!("{}", nothing_fits_hint(&model, args.flash, args.ram, args.beams));
+        println!(
+            "{}",
+            nothing_fits_hint(&model, args.flash, args.ram, args.beams)
+        );
         return Ok(());
     }
     println!("blocks d_model d_inner d_state   MACs/step  flash B    RAM B  instr/step  ms/keystroke  bytes/s");

@@ -20,7 +20,9 @@ pub struct ConvertArgs {
     /// A TOML name-mapping file for checkpoints whose tensor names differ from the schema.
     #[arg(long)]
     pub map: Option<PathBuf>,
-    /// Columns per int8 scale (0: one scale per row).
+    /// Columns per int8 scale (0: one scale per row). Grouped scales cost speed on the
+    /// device: the Cortex-M4 kernel takes one scale per row, so every matrix with groups
+    /// runs on the portable kernel, several times slower per step.
     #[arg(long, default_value_t = 0)]
     pub group: usize,
     /// Store norms, biases and other small float tensors as f16 (smaller image).
@@ -29,6 +31,17 @@ pub struct ConvertArgs {
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
+}
+
+/// What `--group N` costs on the device, said in the report (none for one scale per row).
+fn group_warning(group: usize) -> Option<String> {
+    (group > 0).then(|| {
+        format!(
+            "--group {group}: grouped scales run on the portable kernel on a Cortex-M4 (its \
+             fast kernel takes one scale per row), several times slower per step; \
+             convert with --group 0 for speed"
+        )
+    })
 }
 
 /// Runs `inkling convert`.
@@ -52,6 +65,7 @@ pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
             "image_bytes": report.image_bytes,
             "parameters": report.parameters,
             "group": args.group,
+            "warnings": group_warning(args.group).into_iter().collect::<Vec<_>>(),
             "tensors": report.tensors,
         });
         println!("{v}");
@@ -73,6 +87,9 @@ pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
                 "{:<24} {:>6} {:>10} {:>12.3e} {:>9}",
                 t.name, t.stored_as, t.bytes, t.max_abs_error, sqnr
             );
+        }
+        if let Some(warning) = group_warning(args.group) {
+            println!("note: {warning}");
         }
     }
     Ok(())

@@ -41,7 +41,11 @@ fn check_digits(args: &KeysArgs, map: &KeyMap) -> Result<(), HostError> {
     map.check(args.digits.as_bytes())
         .map_err(|e| HostError::Usage(format!("--digits: {e}: {KEYS_WITHOUT_LETTERS}")))?;
     let text = args.text.as_bytes();
-    let typed = text.len() - text.iter().rposition(|&b| is_boundary(b)).map_or(0, |p| p + 1);
+    let typed = text.len()
+        - text
+            .iter()
+            .rposition(|&b| is_boundary(b))
+            .map_or(0, |p| p + 1);
     if typed + args.digits.len() > MAX_WORD_LEN {
         return Err(HostError::Usage(format!(
             "--digits: {} keys after the {typed} letters of the word in --text make a word \

@@ -191,7 +191,11 @@ impl<W: Weights> Screen<'_, W> {
             .map(|(i, s)| {
                 let mark = if i == self.mark { ">" } else { " " };
                 let tag = if s.finished { "" } else { "  (unfinished)" };
-                format!("{mark} {}. {}{tag}", i + 1, String::from_utf8_lossy(&s.text))
+                format!(
+                    "{mark} {}. {}{tag}",
+                    i + 1,
+                    String::from_utf8_lossy(&s.text)
+                )
             })
             .collect();
         let status = self.status();
@@ -228,7 +232,11 @@ impl<W: Weights> Screen<'_, W> {
         };
         blank(&mut lines, 0);
         let shown = older + typing;
-        lines.extend(text_lines[text_lines.len().saturating_sub(shown)..].iter().cloned());
+        lines.extend(
+            text_lines[text_lines.len().saturating_sub(shown)..]
+                .iter()
+                .cloned(),
+        );
         blank(&mut lines, 1);
         lines.extend(suggestions.into_iter().take(first + more));
         blank(&mut lines, 2);
@@ -272,6 +280,7 @@ impl<W: Weights> Screen<'_, W> {
 
 /// Runs `inkling try`.
 pub fn run(args: &TryArgs) -> Result<(), HostError> {
+    super::checks::count("--count", args.count)?;
     if !io::stdin().is_terminal() || !io::stdout().is_terminal() {
         return Err(HostError::Usage(
             "`inkling try` needs an interactive terminal (its input or output is not one); \
@@ -280,7 +289,6 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
                 .into(),
         ));
     }
-    super::checks::count("--count", args.count)?;
     let file = ModelFile::open(&args.model)?;
     let title = format!(
         "inkling try: {} ({} engine), {} suggestions",
@@ -358,10 +366,16 @@ mod tests {
             let lines = screen.lines("title", rows, 200);
             // Never more lines than rows, so nothing scrolls; the typed line is always there.
             assert!(lines.len() <= rows, "{rows} rows: {lines:?}");
-            assert!(lines.iter().any(|l| l == "| third li_"), "{rows} rows: {lines:?}");
+            assert!(
+                lines.iter().any(|l| l == "| third li_"),
+                "{rows} rows: {lines:?}"
+            );
         }
         // A narrow terminal cuts lines instead of wrapping them onto more rows.
-        assert!(screen.lines("title", 40, 8).iter().all(|l| l.chars().count() <= 8));
+        assert!(screen
+            .lines("title", 40, 8)
+            .iter()
+            .all(|l| l.chars().count() <= 8));
     }
 
     #[test]
