@@ -27,7 +27,7 @@ use super::beam_slots::Slots;
 use super::keypad::KeyMap;
 use super::log_softmax::LogSoftmax;
 use super::suggestion::{SearchOptions, Suggestion, Suggestions};
-use super::utf8_tail::{self, is_continuation};
+use super::utf8_tail::{self, is_continuation, Tail};
 use super::word_boundary::is_boundary;
 use super::word_buffer::{Word, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
@@ -51,13 +51,13 @@ pub(crate) enum Shape<'k> {
 }
 
 impl Shape<'_> {
-    /// Whether word byte `byte` may follow the bytes of `completion`.
-    fn allows(&self, completion: &[u8], byte: u8) -> bool {
+    /// Whether word byte `byte` may follow a completion that has started `started`
+    /// characters.
+    fn allows(&self, started: usize, byte: u8) -> bool {
         match self {
             Shape::Free => true,
             Shape::Keys { map, keys } => {
                 // A continuation byte belongs to the key of the character it continues.
-                let started = characters_started(completion);
                 let key = if is_continuation(byte) {
                     started.checked_sub(1)
                 } else {
@@ -70,11 +70,11 @@ impl Shape<'_> {
         }
     }
 
-    /// Whether the word may end after the bytes of `completion`.
-    fn may_end(&self, completion: &[u8]) -> bool {
+    /// Whether the word may end after a completion that has started `started` characters.
+    fn may_end(&self, started: usize) -> bool {
         match self {
-            Shape::Free => !completion.is_empty(),
-            Shape::Keys { keys, .. } => characters_started(completion) == keys.len(),
+            Shape::Free => started > 0,
+            Shape::Keys { keys, .. } => started == keys.len(),
         }
     }
 }
@@ -190,22 +190,21 @@ fn extend<const K: usize>(
     for (parent, beam) in beams.iter().enumerate() {
         let logits = slots.logits(beam.slot);
         let norm = LogSoftmax::of(logits);
-        let completion = beam.text.get(prefix..).unwrap_or(&[]);
+        // What the bytes so far allow, worked out once per beam rather than per byte.
+        let started = characters_started(beam.text.get(prefix..).unwrap_or(&[]));
+        let tail = Tail::of(&beam.text);
         for (byte, &logit) in (0..=255u8).zip(logits) {
             let score = beam.score + norm.log_prob(logit);
             if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
                 continue;
             }
             if is_boundary(byte) {
-                if shape.may_end(completion)
-                    && utf8_tail::ends_whole(&beam.text)
-                    && options.filter.offers(&beam.text)
-                {
+                if shape.may_end(started) && tail.is_whole() && options.filter.offers(&beam.text) {
                     offer_finished(finished, width, &beam.text, score);
                 }
             } else if !beam.text.is_full()
-                && utf8_tail::may_follow(&beam.text, byte)
-                && shape.allows(completion, byte)
+                && tail.admits(byte)
+                && shape.allows(started, byte)
                 && beats_worst(&candidates, width, score, |c| c.score)
             {
                 let mut text = beam.text.clone();

@@ -34,31 +34,53 @@ const fn second_byte_fits(lead: u8, byte: u8) -> bool {
     }
 }
 
-/// The last character's start in `text` and the continuation bytes it still lacks; `None`
-/// when `text` ends on a whole character (or on bytes no byte added could make whole).
-fn open_character(text: &[u8]) -> Option<(u8, usize, usize)> {
-    let tail = text.get(text.len().saturating_sub(4)..).unwrap_or(&[]);
-    let lead_at = tail.iter().rposition(|&b| !is_continuation(b))?;
-    let lead = *tail.get(lead_at)?;
-    let after = tail.len() - lead_at - 1;
-    let len = sequence_len(lead)?;
-    (len > after + 1).then_some((lead, after, len - 1 - after))
+/// How a text ends, as far as UTF-8 goes: worked out once per beam, asked once per byte.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Tail {
+    /// On a whole character (or on bytes no byte added could make whole).
+    Whole,
+    /// Right after the first byte of a multi-byte character, which is this byte.
+    AfterLead(u8),
+    /// Inside a multi-byte character, past its second byte.
+    Inside,
+}
+
+impl Tail {
+    /// How `text` ends.
+    pub(crate) fn of(text: &[u8]) -> Tail {
+        let tail = text.get(text.len().saturating_sub(4)..).unwrap_or(&[]);
+        let Some(lead_at) = tail.iter().rposition(|&b| !is_continuation(b)) else {
+            return Tail::Whole;
+        };
+        let lead = tail.get(lead_at).copied().unwrap_or(0);
+        let after = tail.len() - lead_at - 1;
+        match sequence_len(lead) {
+            Some(len) if len > after + 1 && after == 0 => Tail::AfterLead(lead),
+            Some(len) if len > after + 1 => Tail::Inside,
+            _ => Tail::Whole,
+        }
+    }
+
+    /// Whether the text ends on a whole character.
+    pub(crate) fn is_whole(self) -> bool {
+        self == Tail::Whole
+    }
+
+    /// Whether `byte` may come next: the next continuation byte of an open character, or
+    /// else the start of a character.
+    pub(crate) fn admits(self, byte: u8) -> bool {
+        match self {
+            Tail::Whole => sequence_len(byte).is_some(),
+            Tail::AfterLead(lead) => second_byte_fits(lead, byte),
+            Tail::Inside => is_continuation(byte),
+        }
+    }
 }
 
 /// Whether `text` ends on a whole character: its last multi-byte character, if any, has
 /// all its continuation bytes.
 pub(crate) fn ends_whole(text: &[u8]) -> bool {
-    open_character(text).is_none()
-}
-
-/// Whether `byte` may follow `text`: the next continuation byte of an open character, or
-/// else the start of a character.
-pub(crate) fn may_follow(text: &[u8], byte: u8) -> bool {
-    match open_character(text) {
-        Some((lead, 0, _)) => second_byte_fits(lead, byte),
-        Some(_) => is_continuation(byte),
-        None => sequence_len(byte).is_some(),
-    }
+    Tail::of(text).is_whole()
 }
 
 #[cfg(test)]
@@ -69,7 +91,8 @@ mod tests {
     fn agrees_with_the_standard_library_on_every_short_sequence() {
         // Reference: `core::str::from_utf8`, the standard library's UTF-8 validator. For
         // every valid text `t` and byte `b`: `t + b` is a valid prefix of some UTF-8 text
-        // exactly when `may_follow(t, b)`, and `t` is valid UTF-8 exactly when it ends whole.
+        // exactly when `Tail::of(t).admits(b)`, and `t` is valid UTF-8 exactly when it ends
+        // whole.
         let mut checked = 0;
         for first in 0..=255u8 {
             for second in 0..=255u8 {
@@ -86,7 +109,7 @@ mod tests {
                     core::str::from_utf8(&pair[..1]).is_ok()
                 );
                 assert_eq!(
-                    may_follow(&pair[..1], second),
+                    Tail::of(&pair[..1]).admits(second),
                     valid_prefix(&pair),
                     "{pair:02x?}"
                 );
@@ -94,7 +117,7 @@ mod tests {
                     assert_eq!(ends_whole(&pair), core::str::from_utf8(&pair).is_ok());
                     for third in [0x41, 0x80, 0x9F, 0xA0, 0xBF, 0xC3] {
                         let triple = [first, second, third];
-                        assert_eq!(may_follow(&pair, third), valid_prefix(&triple));
+                        assert_eq!(Tail::of(&pair).admits(third), valid_prefix(&triple));
                     }
                 }
                 checked += 1;
