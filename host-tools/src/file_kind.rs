@@ -127,7 +127,7 @@ mod tests {
         let mut checkpoint = 2u64.to_le_bytes().to_vec();
         checkpoint.extend_from_slice(b"{}");
         assert_eq!(FileKind::of(&checkpoint, 10), FileKind::Checkpoint);
-        assert_eq!(FileKind::of(&checkpoint, 9), FileKind::Text); // header past the end
+        assert_eq!(FileKind::of(&checkpoint, 9), FileKind::Other); // header past the end
         assert_eq!(FileKind::of(b"INKL\x01\x00", 6), FileKind::Image);
         assert_eq!(FileKind::of(b"", 0), FileKind::Empty);
         assert_eq!(FileKind::of(b"# inkling\nPredictive", 20), FileKind::Text);
