@@ -76,7 +76,8 @@ pub enum Error {
         capacity: usize,
     },
     /// A word list (deny list or lexicon) has an empty line or a line not after the one
-    /// before it (lines must be non-empty and strictly ascending bytewise).
+    /// before it (lines must be non-empty and strictly ascending in
+    /// [`word_order`](crate::session::word_list::word_order), bytewise with case folded).
     BadWordList {
         /// The line at fault, counted from 1.
         line: usize,
@@ -182,12 +183,20 @@ impl fmt::Display for Error {
             Error::BadWordList { line, offset } => write!(
                 f,
                 "word list line {line} at byte {offset} is empty or not after the line before it \
-                 (lines must be non-empty and sorted strictly ascending by bytes)"
+                 (lines must be non-empty and sorted strictly ascending by bytes, case folded, \
+                 each word once in any case)"
             ),
-            Error::NotALetterKey { position, byte } => write!(
-                f,
-                "key {position} (byte {byte:#04x}) is not a letter key of the keypad layout"
-            ),
+            Error::NotALetterKey { position, byte } => {
+                // The position counts from 1 here: "key 0" would read as the digit 0.
+                let number = position + 1;
+                if byte.is_ascii_graphic() {
+                    let key = *byte as char;
+                    write!(f, "key `{key}` ({byte:#04x}), number {number} of the keys pressed,")?;
+                } else {
+                    write!(f, "byte {byte:#04x}, number {number} of the keys pressed,")?;
+                }
+                f.write_str(" is not a letter key of the keypad layout")
+            }
         }
     }
 }

@@ -21,6 +21,14 @@ pub enum HostError {
         /// What the reader found.
         source: inkling_core::Error,
     },
+    /// A file is not of the kind the command reads.
+    #[error("{path}: {problem}")]
+    WrongFile {
+        /// The file.
+        path: PathBuf,
+        /// What it is and what to do.
+        problem: String,
+    },
     /// A checkpoint could not be read or converted.
     #[error(transparent)]
     Checkpoint(#[from] inkling_quantize::QuantizeError),

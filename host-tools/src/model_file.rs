@@ -7,6 +7,7 @@ use inkling_core::{Dims, Model};
 use inkling_quantize::{Checkpoint, ConvertOptions, FloatModel, ReadOptions};
 
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 
 /// A model file's contents, checked.
 pub enum ModelFile {
@@ -30,8 +31,10 @@ pub fn image_model<'a>(bytes: &'a [u8], path: &Path) -> Result<Model<'a>, HostEr
 }
 
 impl ModelFile {
-    /// Opens an image or a checkpoint (told apart by the image magic).
+    /// Opens an image or a checkpoint (told apart by the image magic); another kind of file
+    /// is refused with what it is.
     pub fn open(path: &Path) -> Result<Self, HostError> {
+        check(path, Wanted::Model)?;
         let bytes = std::fs::read(path).map_err(HostError::io(path))?;
         if is_image(&bytes) {
             image_model(&bytes, path)?;

@@ -320,6 +320,14 @@ impl Checkpoint {
         path: &Path,
         options: &ReadOptions,
     ) -> Result<Self, QuantizeError> {
+        if let Some(lie) = crate::header_lengths::first_mismatch(bytes) {
+            return Err(QuantizeError::TensorLength {
+                path: path.to_path_buf(),
+                name: lie.name,
+                needed: lie.needed,
+                given: lie.given,
+            });
+        }
         let st = SafeTensors::deserialize(bytes).map_err(|e| QuantizeError::Container {
             path: path.to_path_buf(),
             reason: e.to_string(),

@@ -23,6 +23,21 @@ pub enum QuantizeError {
         /// The parser's reason.
         reason: String,
     },
+    /// A tensor's data offsets in the header give another length than its shape and type.
+    #[error(
+        "{path}: tensor `{name}`: the header's shape and type need {needed} bytes, its data \
+         offsets give {given}"
+    )]
+    TensorLength {
+        /// The file.
+        path: PathBuf,
+        /// The tensor's name in the file.
+        name: String,
+        /// Bytes the shape and type need.
+        needed: u64,
+        /// Bytes between the data offsets.
+        given: u64,
+    },
     /// A tensor the schema needs is absent.
     #[error("{path}: tensor {name} is missing{hint} (see the {SCHEMA_SPEC})")]
     Missing {

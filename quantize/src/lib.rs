@@ -14,6 +14,7 @@ pub mod convert;
 pub mod error;
 pub mod export;
 pub mod float_model;
+pub mod header_lengths;
 pub mod name_map;
 pub mod outside_layout;
 pub mod quantiser;

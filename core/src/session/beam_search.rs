@@ -8,6 +8,11 @@
 //! - any other byte is a candidate; the `width` best candidates become the next beams and
 //!   each is stepped once through the model.
 //!
+//! A word is offered only if it adds at least one byte to the word typed (the word as typed
+//! saves no keystroke) and ends on a whole UTF-8 character; a byte is a candidate only if it
+//! keeps the word well-formed UTF-8 (see `utf8_tail`), so no beam is spent on a byte
+//! sequence that could never be offered.
+//!
 //! A candidate no better than the worst of a full finished list is dropped: scores only fall
 //! as words grow, so it could never finish better. The search ends when no candidate is
 //! left, or when the step budget is spent (then the unstepped beams are still reported as
@@ -22,6 +27,7 @@ use super::beam_slots::Slots;
 use super::keypad::KeyMap;
 use super::log_softmax::LogSoftmax;
 use super::suggestion::{SearchOptions, Suggestion, Suggestions};
+use super::utf8_tail::{self, is_continuation, Tail};
 use super::word_boundary::is_boundary;
 use super::word_buffer::{Word, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
@@ -33,7 +39,9 @@ use crate::error::Error;
 pub(crate) enum Shape<'k> {
     /// Any word bytes.
     Free,
-    /// One letter of each key in turn, then the end of the word.
+    /// One character of each key in turn, then the end of the word. A key stands for the
+    /// characters whose bytes are all in its set (a multi-byte character: its first byte
+    /// and its continuation bytes).
     Keys {
         /// The layout.
         map: &'k KeyMap,
@@ -43,24 +51,37 @@ pub(crate) enum Shape<'k> {
 }
 
 impl Shape<'_> {
-    /// Whether word byte `byte` may follow `depth` bytes of completion.
-    fn allows(&self, depth: usize, byte: u8) -> bool {
+    /// Whether word byte `byte` may follow a completion that has started `started`
+    /// characters.
+    fn allows(&self, started: usize, byte: u8) -> bool {
         match self {
             Shape::Free => true,
-            Shape::Keys { map, keys } => keys
-                .get(depth)
-                .and_then(|&k| map.letters(k))
-                .is_some_and(|set| set.contains(byte)),
+            Shape::Keys { map, keys } => {
+                // A continuation byte belongs to the key of the character it continues.
+                let key = if is_continuation(byte) {
+                    started.checked_sub(1)
+                } else {
+                    Some(started)
+                };
+                key.and_then(|k| keys.get(k))
+                    .and_then(|&k| map.letters(k))
+                    .is_some_and(|set| set.contains(byte))
+            }
         }
     }
 
-    /// Whether the word may end after `depth` bytes of completion.
-    fn may_end(&self, depth: usize) -> bool {
+    /// Whether the word may end after a completion that has started `started` characters.
+    fn may_end(&self, started: usize) -> bool {
         match self {
-            Shape::Free => true,
-            Shape::Keys { keys, .. } => depth == keys.len(),
+            Shape::Free => started > 0,
+            Shape::Keys { keys, .. } => started == keys.len(),
         }
     }
+}
+
+/// How many characters `bytes` starts (its bytes that are not UTF-8 continuation bytes).
+fn characters_started(bytes: &[u8]) -> usize {
+    bytes.iter().filter(|&&b| !is_continuation(b)).count()
 }
 
 /// Where the search starts: the state after the text so far, the logits after it and the
@@ -143,7 +164,7 @@ pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
             break;
         }
         let seen = out.list.iter().any(|s| s.text == beam.text);
-        if !seen && options.filter.offers(&beam.text) {
+        if !seen && utf8_tail::ends_whole(&beam.text) && options.filter.offers(&beam.text) {
             let _ = out.list.push(Suggestion {
                 text: beam.text.clone(),
                 logprob: beam.score,
@@ -169,21 +190,21 @@ fn extend<const K: usize>(
     for (parent, beam) in beams.iter().enumerate() {
         let logits = slots.logits(beam.slot);
         let norm = LogSoftmax::of(logits);
-        let depth = beam.text.len().saturating_sub(prefix);
+        // What the bytes so far allow, worked out once per beam rather than per byte.
+        let started = characters_started(beam.text.get(prefix..).unwrap_or(&[]));
+        let tail = Tail::of(&beam.text);
         for (byte, &logit) in (0..=255u8).zip(logits) {
             let score = beam.score + norm.log_prob(logit);
             if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
                 continue;
             }
             if is_boundary(byte) {
-                if !beam.text.is_empty()
-                    && shape.may_end(depth)
-                    && options.filter.offers(&beam.text)
-                {
+                if shape.may_end(started) && tail.is_whole() && options.filter.offers(&beam.text) {
                     offer_finished(finished, width, &beam.text, score);
                 }
             } else if !beam.text.is_full()
-                && shape.allows(depth, byte)
+                && tail.admits(byte)
+                && shape.allows(started, byte)
                 && beats_worst(&candidates, width, score, |c| c.score)
             {
                 let mut text = beam.text.clone();

@@ -83,6 +83,14 @@ impl ByteSet {
 /// A keypad layout: for each key (named by the byte its label is, e.g. `b'2'`), the bytes it
 /// stands for. Up to 12 keys. Other layouts are other data.
 ///
+/// A key stands for each character whose UTF-8 bytes are all in its set: an ASCII letter
+/// by its byte, an accented letter by its first byte and its continuation bytes (so
+/// `"é".as_bytes()`, `C3 A9`, puts `é` on a key). Every character a key stands for is a
+/// candidate and the model ranks them, capitals included: after "Base, this is " the keys
+/// `826735` of [`KeyMap::E161`] give "Tamsel" if the model expects a name there. To force a
+/// case, leave the other case out of the layout (e.g. a lower-case-only map for a
+/// "lower case" mode), or type the letter in full.
+///
 /// ```
 /// use inkling_core::session::{ByteSet, KeyMap};
 /// // A two-key layout: vowels on 1, consonants on 2.
@@ -102,25 +110,53 @@ pub struct KeyMap {
 }
 
 impl KeyMap {
-    /// The letter assignment of ITU-T Recommendation E.161 (lowercase a–z): 2 abc, 3 def,
-    /// 4 ghi, 5 jkl, 6 mno, 7 pqrs, 8 tuv, 9 wxyz; keys 1, 0, `*` and `#` carry no letters.
+    /// The letter assignment of ITU-T Recommendation E.161, each letter in both cases:
+    /// 2 abc, 3 def, 4 ghi, 5 jkl, 6 mno, 7 pqrs, 8 tuv, 9 wxyz; keys 1, 0, `*` and `#`
+    /// carry no letters.
     ///
     /// ```
     /// use inkling_core::session::KeyMap;
-    /// assert!(KeyMap::E161.letters(b'7').is_some_and(|s| s.contains(b's')));
+    /// assert!(KeyMap::E161.letters(b'7').is_some_and(|s| s.contains(b's') && s.contains(b'S')));
     /// ```
     pub const E161: KeyMap = KeyMap::new(
         *b"1234567890*#",
         [
             ByteSet::EMPTY,
-            ByteSet::from_bytes(b"abc"),
-            ByteSet::from_bytes(b"def"),
-            ByteSet::from_bytes(b"ghi"),
-            ByteSet::from_bytes(b"jkl"),
-            ByteSet::from_bytes(b"mno"),
-            ByteSet::from_bytes(b"pqrs"),
-            ByteSet::from_bytes(b"tuv"),
-            ByteSet::from_bytes(b"wxyz"),
+            ByteSet::from_bytes(b"abcABC"),
+            ByteSet::from_bytes(b"defDEF"),
+            ByteSet::from_bytes(b"ghiGHI"),
+            ByteSet::from_bytes(b"jklJKL"),
+            ByteSet::from_bytes(b"mnoMNO"),
+            ByteSet::from_bytes(b"pqrsPQRS"),
+            ByteSet::from_bytes(b"tuvTUV"),
+            ByteSet::from_bytes(b"wxyzWXYZ"),
+            ByteSet::EMPTY,
+            ByteSet::EMPTY,
+            ByteSet::EMPTY,
+        ],
+    );
+
+    /// [`KeyMap::E161`] with the accented Latin-1 letters on the key of their base letter,
+    /// in both cases: 2 àáâãäåç, 3 èéêë, 4 ìíîï, 6 ñòóôõöø, 7 ß, 8 ùúûü, 9 ýÿ (and the
+    /// capitals). All are two bytes starting `C3`, so each key's set holds exactly these.
+    ///
+    /// ```
+    /// use inkling_core::session::KeyMap;
+    /// let six = KeyMap::E161_ACCENTED.letters(b'6').unwrap();
+    /// assert!("nÑö".bytes().all(|b| six.contains(b)));
+    /// ```
+    pub const E161_ACCENTED: KeyMap = KeyMap::new(
+        *b"1234567890*#",
+        [
+            ByteSet::EMPTY,
+            ByteSet::from_bytes("abcABCàáâãäåçÀÁÂÃÄÅÇ".as_bytes()),
+            ByteSet::from_bytes("defDEFèéêëÈÉÊË".as_bytes()),
+            ByteSet::from_bytes("ghiGHIìíîïÌÍÎÏ".as_bytes()),
+            ByteSet::from_bytes(b"jklJKL"),
+            ByteSet::from_bytes("mnoMNOñòóôõöøÑÒÓÔÕÖØ".as_bytes()),
+            ByteSet::from_bytes("pqrsPQRSß".as_bytes()),
+            ByteSet::from_bytes("tuvTUVùúûüÙÚÛÜ".as_bytes()),
+            ByteSet::from_bytes("wxyzWXYZýÿÝ".as_bytes()),
             ByteSet::EMPTY,
             ByteSet::EMPTY,
             ByteSet::EMPTY,
@@ -143,7 +179,7 @@ impl KeyMap {
     ///
     /// ```
     /// use inkling_core::session::KeyMap;
-    /// assert!(KeyMap::E161.letters(b'9').is_some_and(|s| s.iter().eq(*b"wxyz")));
+    /// assert!(KeyMap::E161.letters(b'9').is_some_and(|s| s.iter().eq(*b"WXYZwxyz")));
     /// assert!(KeyMap::E161.letters(b'A').is_none());
     /// ```
     pub fn letters(&self, key: u8) -> Option<&ByteSet> {
@@ -182,7 +218,7 @@ mod tests {
     fn e161_letters_match_the_standard() {
         // ITU-T Recommendation E.161 (02/2001), Figure 1 "Allocation of letters to the 12-key
         // keypad" (from memory): 2 ABC, 3 DEF, 4 GHI, 5 JKL, 6 MNO, 7 PQRS, 8 TUV, 9 WXYZ;
-        // 1 and 0 carry no letters.
+        // 1 and 0 carry no letters. Each key stands for its letters in both cases.
         let standard: [(u8, &[u8]); 12] = [
             (b'1', b""),
             (b'2', b"abc"),
@@ -199,8 +235,9 @@ mod tests {
         ];
         for (key, letters) in standard {
             let set = KeyMap::E161.letters(key).unwrap();
+            let capitals = letters.iter().map(u8::to_ascii_uppercase);
             assert!(
-                set.iter().eq(letters.iter().copied()),
+                set.iter().eq(capitals.chain(letters.iter().copied())),
                 "key {}",
                 key as char
             );
@@ -213,6 +250,44 @@ mod tests {
                 .filter(|&k| KeyMap::E161.letters(k).unwrap().contains(letter))
                 .count();
             assert_eq!(on, 1);
+        }
+    }
+
+    #[test]
+    fn accented_letters_sit_on_the_key_of_their_base_letter() {
+        extern crate std;
+        // Reference: Unicode canonical decomposition (from memory): each of these letters is
+        // its base letter plus a combining mark, except ß (German sharp s, on the key of s)
+        // and ø (o with stroke, on the key of o), which do not decompose. The base letter's
+        // E.161 key carries it, and no other key carries it too.
+        let accented = [
+            ("àáâãäåç", b'2'),
+            ("èéêë", b'3'),
+            ("ìíîï", b'4'),
+            ("ñòóôõöø", b'6'),
+            ("ß", b'7'),
+            ("ùúûü", b'8'),
+            ("ýÿ", b'9'),
+        ];
+        for (letters, key) in accented {
+            for c in letters
+                .chars()
+                .chain(letters.chars().flat_map(char::to_uppercase))
+            {
+                let mut buf = [0u8; 4];
+                let bytes = c.encode_utf8(&mut buf).as_bytes();
+                if bytes.first() != Some(&0xC3) {
+                    continue; // outside Latin-1: ß's capital is "SS", ÿ's is U+0178
+                }
+                let on = |k: u8| {
+                    KeyMap::E161_ACCENTED
+                        .letters(k)
+                        .is_some_and(|s| bytes.iter().all(|&b| s.contains(b)))
+                };
+                assert!(on(key), "{c} on {}", key as char);
+                let elsewhere = (b'0'..=b'9').filter(|&k| k != key && on(k)).count();
+                assert_eq!(elsewhere, 0, "{c}");
+            }
         }
     }
 

@@ -1,9 +1,14 @@
 //! Word lists kept as data in flash: a deny list and a lexicon.
 //!
 //! A list is the bytes of a text file: one word per line, lines separated by `\n` (a final
-//! `\n` is optional), no empty lines, sorted strictly ascending by bytes (the order of
-//! `LC_ALL=C sort -u`). Matching is exact and case-sensitive: put "The" in the list too if it
-//! should match at the start of a sentence.
+//! `\n` is optional), no empty lines, sorted strictly ascending in [`word_order`]: bytewise
+//! after folding case, so a list of lower-case words in the order of `LC_ALL=C sort -u` is
+//! one.
+//!
+//! Matching ignores case: a lexicon word "tamsel" lets "Tamsel" and "TAMSEL" be offered, and
+//! a denied word is denied in every case. Case is folded for the ASCII letters `A`–`Z` and
+//! for the Latin-1 letters `À`–`Þ` (U+00C0–U+00DE but `×`), as UTF-8, onto their small
+//! forms; other bytes are compared as they are.
 //!
 //! Lookup is a binary search over byte offsets: pick the middle byte of the range still in
 //! question, walk back to the start of its line and forward to its end, compare that line
@@ -15,12 +20,47 @@ use core::cmp::Ordering;
 
 use crate::error::Error;
 
-/// A sorted, newline-separated list of words, borrowed (typically from flash).
+/// The order of a word list: bytewise, after folding case as the [module docs](self) say.
+/// Words equal in this order are the same word to a list.
+///
+/// ```
+/// use core::cmp::Ordering;
+/// use inkling_core::session::word_list::word_order;
+/// assert_eq!(word_order(b"Tamsel", b"tamsel"), Ordering::Equal);
+/// assert_eq!(word_order("\u{c9}t\u{c9}".as_bytes(), "\u{e9}t\u{e9}".as_bytes()), Ordering::Equal); // ÉTÉ, été
+/// assert_eq!(word_order(b"Zebra", b"apple"), Ordering::Greater);
+/// ```
+pub fn word_order(a: &[u8], b: &[u8]) -> Ordering {
+    folded(a).cmp(folded(b))
+}
+
+/// Whether `word` starts with `prefix`, case folded.
+fn starts_with_folded(word: &[u8], prefix: &[u8]) -> bool {
+    prefix.len() <= word.len() && folded(prefix).zip(folded(word)).all(|(p, w)| p == w)
+}
+
+/// The bytes of `word` with case folded: `A`–`Z` to `a`–`z`, and the second byte of the
+/// UTF-8 form of `À`–`Þ` (`C3 80`–`C3 9E`, but `C3 97`, `×`) to that of `à`–`þ` (`+ 0x20`).
+fn folded(word: &[u8]) -> impl Iterator<Item = u8> + '_ {
+    word.iter().scan(0u8, |previous, &byte| {
+        let folded = match byte {
+            b'A'..=b'Z' => byte + 0x20,
+            0x80..=0x9E if *previous == 0xC3 && byte != 0x97 => byte + 0x20,
+            _ => byte,
+        };
+        *previous = byte;
+        Some(folded)
+    })
+}
+
+/// A sorted, newline-separated list of words, borrowed (typically from flash), matched
+/// without regard to case.
 ///
 /// ```
 /// use inkling_core::session::WordList;
 /// let list = WordList::new(b"apple\napply\nbanana\n")?;
 /// assert!(list.contains(b"apply") && !list.contains(b"app"));
+/// assert!(list.contains(b"Apply") && list.has_prefix(b"BAN"));
 /// assert!(list.has_prefix(b"app") && !list.has_prefix(b"ax"));
 /// assert!(WordList::new(b"banana\napple").is_err()); // not sorted
 /// # Ok::<(), inkling_core::Error>(())
@@ -38,18 +78,20 @@ impl<'a> WordList<'a> {
     /// ```
     pub const EMPTY: WordList<'static> = WordList { bytes: b"" };
 
-    /// Checks `bytes` once (non-empty lines, strictly ascending) and wraps it. The error
-    /// [`Error::BadWordList`] names the first line at fault.
+    /// Checks `bytes` once (non-empty lines, strictly ascending in [`word_order`]) and
+    /// wraps it. The error [`Error::BadWordList`] names the first line at fault; two lines
+    /// that differ only in case are one word twice, so the second is at fault.
     ///
     /// ```
     /// use inkling_core::{Error, session::WordList};
     /// assert_eq!(WordList::new(b"b\na\n"), Err(Error::BadWordList { line: 2, offset: 2 }));
+    /// assert_eq!(WordList::new(b"Ab\nab\n"), Err(Error::BadWordList { line: 2, offset: 3 }));
     /// ```
     pub fn new(bytes: &'a [u8]) -> Result<Self, Error> {
         let mut previous: Option<&[u8]> = None;
         let mut offset = 0;
         for (line, word) in lines(bytes).enumerate() {
-            let in_order = previous.is_none_or(|p| p < word);
+            let in_order = previous.is_none_or(|p| word_order(p, word) == Ordering::Less);
             if word.is_empty() || !in_order {
                 return Err(Error::BadWordList {
                     line: line + 1,
@@ -72,19 +114,20 @@ impl<'a> WordList<'a> {
         self.bytes.is_empty()
     }
 
-    /// Whether `word` is a line of the list.
+    /// Whether `word` is a line of the list, in any case.
     ///
     /// ```
     /// let list = inkling_core::session::WordList::new(b"cat\ncats\n")?;
-    /// assert!(list.contains(b"cat") && !list.contains(b"ca"));
+    /// assert!(list.contains(b"cat") && list.contains(b"CaT") && !list.contains(b"ca"));
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn contains(&self, word: &[u8]) -> bool {
-        self.first_at_least(word) == Some(word)
+        self.first_at_least(word)
+            .is_some_and(|line| word_order(line, word) == Ordering::Equal)
     }
 
-    /// Whether some word of the list starts with `prefix` (the empty prefix: whether the
-    /// list has any word).
+    /// Whether some word of the list starts with `prefix`, in any case (the empty prefix:
+    /// whether the list has any word).
     ///
     /// ```
     /// let list = inkling_core::session::WordList::new(b"cat\ncats\n")?;
@@ -93,10 +136,10 @@ impl<'a> WordList<'a> {
     /// ```
     pub fn has_prefix(&self, prefix: &[u8]) -> bool {
         self.first_at_least(prefix)
-            .is_some_and(|w| w.starts_with(prefix))
+            .is_some_and(|w| starts_with_folded(w, prefix))
     }
 
-    /// The first line that is `>= key` bytewise, if any.
+    /// The first line that is `>= key` in [`word_order`], if any.
     fn first_at_least(&self, key: &[u8]) -> Option<&'a [u8]> {
         let bytes = self.bytes;
         // Invariant: `lo` is a line start, every line starting before `lo` is < key, and
@@ -110,7 +153,7 @@ impl<'a> WordList<'a> {
                 .map_or(lo, |p| lo + p + 1);
             let end = line_end(bytes, start);
             let line = bytes.get(start..end).unwrap_or(&[]);
-            if line.cmp(key) == Ordering::Less {
+            if word_order(line, key) == Ordering::Less {
                 lo = (end + 1).min(hi);
             } else {
                 hi = start;
@@ -137,7 +180,7 @@ fn lines(bytes: &[u8]) -> impl Iterator<Item = &[u8]> {
 }
 
 /// Which words a search may offer: never a word of `deny`; with a lexicon, only its words
-/// (and beams are pruned to prefixes of its words).
+/// (and beams are pruned to prefixes of its words). Both match in any case.
 ///
 /// ```
 /// use inkling_core::session::{WordFilter, WordList};
@@ -241,6 +284,56 @@ mod tests {
         );
         assert!(WordList::new(b"b\na").is_err());
         assert!(WordList::new(b"a\nb").is_ok());
+    }
+
+    #[test]
+    fn matching_ignores_case_as_unicode_lowercase_does() {
+        extern crate std;
+        use std::string::ToString;
+        // Reference: the standard library's `str::to_lowercase` (Unicode's lowercase
+        // mapping), on words of ASCII and Latin-1 letters, the letters this list folds.
+        let words = ["hut", "tamsel", "\u{e9}t\u{e9}", "\u{fe}orn"]; // été, þorn
+        let text = words.join("\n");
+        let list = WordList::new(text.as_bytes()).unwrap();
+        let queries = [
+            "HUT",
+            "Hut",
+            "hUTS",
+            "TAMSEL",
+            "tAmSeL",
+            "Tams",
+            "\u{c9}T\u{c9}",
+            "\u{c9}t\u{e9}",
+            "ete",
+            "\u{de}ORN",
+            "\u{de}",
+            "\u{d7}",
+            "\u{f7}",
+            "Z",
+            "",
+        ];
+        for query in queries {
+            let lower = query.to_lowercase();
+            let contained = words.iter().any(|w| w.to_lowercase() == lower);
+            assert_eq!(list.contains(query.as_bytes()), contained, "{query}");
+            let prefixed = words.iter().any(|w| w.to_lowercase().starts_with(&lower));
+            assert_eq!(list.has_prefix(query.as_bytes()), prefixed, "{query}");
+        }
+        // A denied word is denied in every case.
+        let filter = WordFilter {
+            deny: WordList::new(b"darn").unwrap(),
+            lexicon: None,
+        };
+        for case in ["darn", "Darn", "DARN", "dArN"] {
+            assert!(!filter.offers(case.as_bytes()), "{case}");
+        }
+        assert!(filter.offers(b"dart"));
+        // Lines the same but for case are one word twice.
+        let twice = ["Hut", "hut"].join("\n").to_string();
+        assert_eq!(
+            WordList::new(twice.as_bytes()),
+            Err(Error::BadWordList { line: 2, offset: 4 })
+        );
     }
 
     #[test]

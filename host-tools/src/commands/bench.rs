@@ -18,6 +18,39 @@ use crate::text_scoring::HostEngine;
 /// Bytes per prefill pass that `bench` measures.
 const PREFILL_CHUNK: usize = 16;
 
+/// Runs of each measurement; their minimum, median and maximum are printed, since one run
+/// on a shared machine can be far off the next.
+const REPEATS: usize = 5;
+
+/// The minimum, median and maximum of the runs of one measurement.
+#[derive(Debug, Clone, Copy, serde::Serialize)]
+struct Spread {
+    min: f64,
+    median: f64,
+    max: f64,
+}
+
+impl Spread {
+    /// The spread of `samples` (at least one).
+    fn of(mut samples: Vec<f64>) -> Spread {
+        samples.sort_by(f64::total_cmp);
+        let at = |i: usize| samples.get(i).copied().unwrap_or(f64::NAN);
+        Spread {
+            min: at(0),
+            median: at(samples.len() / 2),
+            max: at(samples.len().saturating_sub(1)),
+        }
+    }
+
+    /// `median (min to max over N runs)`, with `digits` decimals.
+    fn show(&self, digits: usize) -> String {
+        format!(
+            "{:.digits$} (min {:.digits$}, max {:.digits$} over {REPEATS} runs)",
+            self.median, self.min, self.max
+        )
+    }
+}
+
 /// Arguments of `inkling bench`.
 #[derive(Debug, clap::Args)]
 pub struct BenchArgs {
@@ -51,10 +84,10 @@ fn bench_text(n: usize) -> Vec<u8> {
         .collect()
 }
 
-/// Steps per second of `weights` over `n` bytes of a fixed pseudo-text (median of 3 runs).
-fn steps_per_second(weights: &dyn Weights, n: usize) -> f64 {
+/// Microseconds per step of `weights` over `n` bytes of a fixed pseudo-text, per run.
+fn step_microseconds(weights: &dyn Weights, n: usize) -> Spread {
     let text = bench_text(n);
-    let mut rates: Vec<f64> = (0..3)
+    let times: Vec<f64> = (0..REPEATS)
         .map(|_| {
             let mut engine = HostEngine::new(weights);
             let start = Instant::now();
@@ -63,18 +96,17 @@ fn steps_per_second(weights: &dyn Weights, n: usize) -> f64 {
                 sink += engine.step(weights, b)[0];
             }
             std::hint::black_box(sink);
-            n as f64 / start.elapsed().as_secs_f64()
+            1e6 * start.elapsed().as_secs_f64() / n as f64
         })
         .collect();
-    rates.sort_by(f64::total_cmp);
-    rates[1]
+    Spread::of(times)
 }
 
-/// Bytes per second of chunked prefill in passes of `chunk` bytes (median of 3 runs).
-fn prefill_bytes_per_second(weights: &dyn Weights, n: usize, chunk: usize) -> f64 {
+/// Microseconds per byte of chunked prefill in passes of `chunk` bytes, per run.
+fn prefill_microseconds(weights: &dyn Weights, n: usize, chunk: usize) -> Spread {
     let d = *weights.dims();
     let text = bench_text(n);
-    let mut rates: Vec<f64> = (0..3)
+    let times: Vec<f64> = (0..REPEATS)
         .map(|_| {
             let mut state = vec![0.0; d.state_len()];
             let mut work = vec![0.0; d.chunk_work_len(chunk)];
@@ -83,23 +115,22 @@ fn prefill_bytes_per_second(weights: &dyn Weights, n: usize, chunk: usize) -> f6
             if let Ok(mut scratch) = Scratch::new(&d, &mut work, &mut act) {
                 let _ = std::hint::black_box(prefill(weights, &mut state, &mut scratch, &text));
             }
-            n as f64 / start.elapsed().as_secs_f64()
+            1e6 * start.elapsed().as_secs_f64() / n as f64
         })
         .collect();
-    rates.sort_by(f64::total_cmp);
-    rates[1]
+    Spread::of(times)
 }
 
 /// Keystrokes timed for the latency figure: a scenario message typed key by key.
 const KEYSTROKE_TEXT: &[u8] = b"Supplies reached the upper hut before the rain. ";
 
-/// Mean seconds per keystroke (push, then `count` suggestions), median of 3 runs over
-/// [`KEYSTROKE_TEXT`].
-fn keystroke_seconds(weights: &dyn Weights, count: usize) -> Result<f64, HostError> {
+/// Mean milliseconds per keystroke (push, then `count` suggestions) over
+/// [`KEYSTROKE_TEXT`], per run.
+fn keystroke_milliseconds(weights: &dyn Weights, count: usize) -> Result<Spread, HostError> {
     let d = *weights.dims();
     let options = SearchOptions::new(count);
     let mut times = Vec::new();
-    for _ in 0..3 {
+    for _ in 0..REPEATS {
         let mut memory = SessionMemory::new(&d, MAX_COUNT);
         let mut session = memory
             .session::<_, MAX_COUNT>(weights)
@@ -113,10 +144,9 @@ fn keystroke_seconds(weights: &dyn Weights, count: usize) -> Result<f64, HostErr
                     .map_err(|e| HostError::Usage(format!("suggest: {e}")))?,
             );
         }
-        times.push(start.elapsed().as_secs_f64() / KEYSTROKE_TEXT.len() as f64);
+        times.push(1e3 * start.elapsed().as_secs_f64() / KEYSTROKE_TEXT.len() as f64);
     }
-    times.sort_by(f64::total_cmp);
-    Ok(times[1])
+    Ok(Spread::of(times))
 }
 
 /// `NAME VALUE` lines of the firmware's figures file.
@@ -133,38 +163,35 @@ fn read_figures(path: &Path) -> Result<HashMap<String, f64>, HostError> {
 
 /// Runs `inkling bench`.
 pub fn run(args: &BenchArgs) -> Result<(), HostError> {
+    // Everything that can be wrong with the arguments fails before the first timing.
+    super::checks::count("--count", args.count)?;
+    super::checks::at_least_one("--bytes", args.bytes)?;
     let model = ModelFile::open(&args.model)?;
-    let rate = model.with_weights(|w| steps_per_second(w, args.bytes));
-    let prefill_rate =
-        model.with_weights(|w| prefill_bytes_per_second(w, args.bytes, PREFILL_CHUNK));
-    if args.count == 0 || args.count > MAX_COUNT {
-        return Err(HostError::Usage(format!(
-            "--count must be 1 to {MAX_COUNT}"
-        )));
-    }
-    let keystroke = model.with_weights(|w| keystroke_seconds(w, args.count))?;
+    let against = args.against.as_deref().map(ModelFile::open).transpose()?;
     let figures = match &args.firmware_figures {
         Some(p) => Some(read_figures(p)?),
         None => None,
     };
+    let step_us = model.with_weights(|w| step_microseconds(w, args.bytes));
+    let prefill_us = model.with_weights(|w| prefill_microseconds(w, args.bytes, PREFILL_CHUNK));
+    let keystroke_ms = model.with_weights(|w| keystroke_milliseconds(w, args.count))?;
+    let (rate, prefill_rate) = (1e6 / step_us.median, 1e6 / prefill_us.median);
     let figure = |name: &str| figures.as_ref().and_then(|f| f.get(name).copied());
-    let other = match &args.against {
-        Some(p) => {
-            let f = ModelFile::open(p)?;
-            Some((
-                f.engine_name(),
-                f.with_weights(|w| steps_per_second(w, args.bytes)),
-            ))
-        }
-        None => None,
-    };
+    let other = against.map(|f| {
+        let us = f.with_weights(|w| step_microseconds(w, args.bytes));
+        (f.engine_name(), 1e6 / us.median)
+    });
     if args.json {
         let mut v = serde_json::json!({
             "model": args.model, "engine": model.engine_name(),
             "step_bytes_per_second": rate, "step_microseconds": 1e6 / rate,
             "prefill_chunk": PREFILL_CHUNK, "prefill_bytes_per_second": prefill_rate,
             "prefill_cost_per_byte_vs_step": rate / prefill_rate,
-            "keystroke_count": args.count, "keystroke_milliseconds": 1e3 * keystroke,
+            "keystroke_count": args.count, "keystroke_milliseconds": keystroke_ms.median,
+            "repeats": REPEATS,
+            "step_microseconds_spread": step_us,
+            "prefill_microseconds_per_byte_spread": prefill_us,
+            "keystroke_milliseconds_spread": keystroke_ms,
         });
         if figures.is_some() {
             v["firmware"] = serde_json::json!({
@@ -180,23 +207,24 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
         println!("{v}");
     } else {
         println!(
-            "{} engine: {:.0} bytes/s ({:.1} µs per step)",
+            "{} engine: {:.0} bytes/s; µs per step {}",
             model.engine_name(),
             rate,
-            1e6 / rate
+            step_us.show(1)
         );
         if let Some((engine, r)) = other {
             println!("{engine} engine: {r:.0} bytes/s; ratio {:.2}×", rate / r);
         }
         println!(
-            "prefill in passes of {PREFILL_CHUNK} bytes: {prefill_rate:.0} bytes/s ({:.2}× the cost per byte of single steps)",
-            rate / prefill_rate
+            "prefill in passes of {PREFILL_CHUNK} bytes: {prefill_rate:.0} bytes/s ({:.2}× the cost per byte of single steps); µs per byte {}",
+            rate / prefill_rate,
+            prefill_us.show(2)
         );
         println!(
-            "keystroke with {} suggestions: {:.2} ms (mean over {} keys)",
+            "keystroke with {} suggestions (mean over {} keys): ms {}",
             args.count,
-            1e3 * keystroke,
-            KEYSTROKE_TEXT.len()
+            KEYSTROKE_TEXT.len(),
+            keystroke_ms.show(2)
         );
         if let Some(steps) = figure("step_instructions") {
             println!(
@@ -212,7 +240,7 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
                 "  a keystroke with 3 suggestions is {keys:.0} instructions ({:.0} ms at 64 MHz, {:.0} ms at 168 MHz) against {:.2} ms here",
                 keys / 64e3,
                 keys / 168e3,
-                1e3 * keystroke
+                keystroke_ms.median
             );
         }
     }

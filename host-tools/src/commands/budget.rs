@@ -113,8 +113,37 @@ pub fn fitting(model: &CostModel, flash: usize, ram: usize, beams: usize) -> Vec
     out
 }
 
+/// What to change when no shape fits: the smallest shape's flash and RAM against the part's.
+fn nothing_fits_hint(model: &CostModel, flash: usize, ram: usize, beams: usize) -> String {
+    let everything = fitting(model, usize::MAX, usize::MAX, beams);
+    let need_flash = everything.iter().map(|c| c.flash_bytes).min().unwrap_or(0);
+    let need_ram = everything.iter().map(|c| c.ram_bytes).min().unwrap_or(0);
+    let mut short = Vec::new();
+    if flash < need_flash {
+        short.push(format!("flash (the smallest shape needs {need_flash} B)"));
+    }
+    if ram < need_ram {
+        short.push(format!(
+            "RAM (the smallest shape needs {need_ram} B with {beams} suggestions)"
+        ));
+    }
+    if short.is_empty() {
+        // Each limit alone admits some shape, but no shape meets both.
+        short.push(format!(
+            "flash and RAM together (the smallest shapes need {need_flash} B flash, {need_ram} B RAM)"
+        ));
+    }
+    format!(
+        "nothing fits: too little {}. Give a larger --flash or --ram, or fewer --beams.",
+        short.join(" and ")
+    )
+}
+
 /// Runs `inkling budget`.
 pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
+    super::checks::positive("--clock", args.clock)?;
+    super::checks::count("--beams", args.beams)?;
+    super::checks::at_least_one("--top", args.top)?;
     let cal = Calibration::parse(calibration::BUILT_IN)
         .map_err(|e| HostError::Usage(format!("built-in firmware measurements: {e}")))?;
     let model = CostModel::fit(&cal).ok_or_else(|| {
@@ -141,7 +170,7 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
                 })
             })
             .collect();
-        let v = serde_json::json!({
+        let mut v = serde_json::json!({
             "flash_bytes": args.flash, "ram_bytes": args.ram, "clock_mhz": args.clock,
             "beams": args.beams, "fitting": found.len(), "shapes": list,
             "assumptions": {
@@ -151,6 +180,10 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
                 "instructions_per_cycle": 1.0,
             },
         });
+        if found.is_empty() {
+            v["hint"] =
+                serde_json::json!(nothing_fits_hint(&model, args.flash, args.ram, args.beams));
+        }
         println!("{v}");
         return Ok(());
     }
@@ -166,6 +199,13 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         model.code_bytes,
         model.stack_bytes + STACK_MARGIN
     );
+    if found.is_empty() {
+        println!(
+            "{}",
+            nothing_fits_hint(&model, args.flash, args.ram, args.beams)
+        );
+        return Ok(());
+    }
     println!("blocks d_model d_inner d_state   MACs/step  flash B    RAM B  instr/step  ms/keystroke  bytes/s");
     for c in shown {
         println!(

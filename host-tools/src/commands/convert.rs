@@ -11,6 +11,7 @@ use inkling_quantize::schema::SCHEMA_SPEC;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions, ReadOptions};
 
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 
 /// What `inkling convert` writes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
@@ -47,7 +48,9 @@ pub struct ConvertArgs {
     /// 1e-5).
     #[arg(long)]
     pub norm_eps: Option<f32>,
-    /// Columns per int8 scale (0: one scale per row).
+    /// Columns per int8 scale (0: one scale per row). Grouped scales cost speed on the
+    /// device: the Cortex-M4 kernel takes one scale per row, so every matrix with groups
+    /// runs on the portable kernel, several times slower per step.
     #[arg(long, default_value_t = 0)]
     pub group: usize,
     /// Store norms, biases and other small float tensors as f16 (smaller image).
@@ -67,8 +70,20 @@ fn layout_name(checkpoint: &Checkpoint, mapped: bool) -> &'static str {
     }
 }
 
+/// What `--group N` costs on the device, said in the report (none for one scale per row).
+fn group_warning(group: usize) -> Option<String> {
+    (group > 0).then(|| {
+        format!(
+            "--group {group}: grouped scales run on the portable kernel on a Cortex-M4 (its \
+             fast kernel takes one scale per row), several times slower per step; \
+             convert with --group 0 for speed"
+        )
+    })
+}
+
 /// Runs `inkling convert`.
 pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
+    check(&args.checkpoint, Wanted::Checkpoint)?;
     if let Some(eps) = args.norm_eps.filter(|e| !(e.is_finite() && *e > 0.0)) {
         return Err(HostError::Usage(format!(
             "--norm-eps {eps}: the epsilon must be a positive number (see the {SCHEMA_SPEC})"
@@ -141,6 +156,7 @@ pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
             "image_bytes": report.image_bytes,
             "parameters": report.parameters,
             "group": args.group,
+            "warnings": group_warning(args.group).into_iter().collect::<Vec<_>>(),
             "tensors": report.tensors,
         });
         println!("{v}");
@@ -166,6 +182,9 @@ pub fn run(args: &ConvertArgs) -> Result<(), HostError> {
                 "{:<24} {:>6} {:>10} {:>12.3e} {:>9}",
                 t.name, t.stored_as, t.bytes, t.max_abs_error, sqnr
             );
+        }
+        if let Some(warning) = group_warning(args.group) {
+            println!("note: {warning}");
         }
     }
     Ok(())

@@ -16,18 +16,100 @@ use crate::model_file::{image_model, ModelFile};
 use crate::text_scoring::{bits_per_byte, log_softmax, HostEngine};
 
 /// Where the repository keeps the demo model and its held-out text.
-fn repo_path(rel: &str) -> PathBuf {
+fn repo_path(rel: impl AsRef<Path>) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+/// A path given relative to the project (the defaults, as `--help` shows them): as given if
+/// it exists from here, else in the repository this program was built from.
+fn project_path(path: &Path) -> PathBuf {
+    if path.is_relative() && !path.exists() && repo_path(path).exists() {
+        repo_path(path)
+    } else {
+        path.to_path_buf()
+    }
+}
+
+/// Text both engines read to tell whether a checkpoint is the image's own model.
+const SAME_MODEL_PROBE: &[u8] =
+    b"Base, this is Tamsel Hut. Fresh snow overnight, wind from the north. Over.\n";
+
+/// The largest mean total variation distance between the next-byte distributions of an image
+/// and its own checkpoint over [`SAME_MODEL_PROBE`] (common practice, no source: int8
+/// conversion moves each distribution by a few hundredths; another model, by far more).
+const SAME_MODEL_DISTANCE: f64 = 0.2;
+
+/// Refuses a checkpoint that is not the model the image was converted from: other
+/// dimensions, or next-byte distributions further apart than [`SAME_MODEL_DISTANCE`].
+fn check_same_model(
+    image: &ModelFile,
+    float: &ModelFile,
+    args: &DemoArgs,
+) -> Result<(), HostError> {
+    let refuse = |why: String| {
+        HostError::Usage(format!(
+            "--checkpoint {} is not the model of --image {}: {why}; give the checkpoint the image \
+         was converted from",
+            args.checkpoint.display(),
+            args.image.display()
+        ))
+    };
+    if float.image_bytes().is_some() {
+        return Err(refuse("it is an image, not a float checkpoint".into()));
+    }
+    let (di, df) = (image.dims(), float.dims());
+    if di.d_model != df.d_model
+        || di.d_inner != df.d_inner
+        || di.d_state != df.d_state
+        || di.d_conv != df.d_conv
+        || di.dt_rank != df.dt_rank
+        || di.blocks != df.blocks
+        || di.tied_head != df.tied_head
+    {
+        return Err(refuse(format!(
+            "its shape differs (blocks {} vs {}, d_model {} vs {}, d_inner {} vs {}, d_state {} vs {})",
+            df.blocks, di.blocks, df.d_model, di.d_model, df.d_inner, di.d_inner, df.d_state, di.d_state
+        )));
+    }
+    let distributions = |file: &ModelFile| -> Vec<Vec<f64>> {
+        file.with_weights(|w| {
+            let mut engine = HostEngine::new(w);
+            SAME_MODEL_PROBE
+                .iter()
+                .map(|&b| {
+                    log_softmax(engine.step(w, b))
+                        .iter()
+                        .map(|l| l.exp())
+                        .collect()
+                })
+                .collect()
+        })
+    };
+    let (p, q) = (distributions(image), distributions(float));
+    let distance = p
+        .iter()
+        .zip(&q)
+        .map(|(a, b)| 0.5 * a.iter().zip(b).map(|(x, y)| (x - y).abs()).sum::<f64>())
+        .sum::<f64>()
+        / p.len() as f64;
+    if distance > SAME_MODEL_DISTANCE {
+        return Err(refuse(format!(
+            "its next-byte distributions differ from the image's by {distance:.2} on average \
+             (total variation; the same model converted differs by a few hundredths)"
+        )));
+    }
+    Ok(())
 }
 
 /// Arguments of `inkling demo`.
 #[derive(Debug, clap::Args)]
 pub struct DemoArgs {
-    /// The demo image.
-    #[arg(long, default_value_os_t = repo_path("models/demo.inkl"))]
+    /// The demo image (relative to the project).
+    #[arg(long, default_value = "models/demo.inkl")]
     pub image: PathBuf,
-    /// The float checkpoint the image was converted from.
-    #[arg(long, default_value_os_t = repo_path("models/demo.safetensors"))]
+    /// The float checkpoint the image was converted from (relative to the project); another
+    /// model's is refused.
+    #[arg(long, default_value = "models/demo.safetensors")]
     pub checkpoint: PathBuf,
     /// Bytes of each held-out text to score (the model and the compressors see the same slice).
     #[arg(long, default_value_t = 20_000)]
@@ -251,8 +333,8 @@ fn continue_greedily(file: &ModelFile, prompt: &str, len: usize) -> String {
 
 /// Runs `inkling demo`.
 pub fn run(args: &DemoArgs) -> Result<(), HostError> {
-    let image = ModelFile::open(&args.image)?;
-    let float = ModelFile::open(&args.checkpoint)?;
+    let image = ModelFile::open(&project_path(&args.image))?;
+    let float = ModelFile::open(&project_path(&args.checkpoint))?;
     let bytes = image.image_bytes().ok_or_else(|| {
         HostError::Usage(format!(
             "{}: --image must be a packed image",
@@ -260,6 +342,7 @@ pub fn run(args: &DemoArgs) -> Result<(), HostError> {
         ))
     })?;
     let model = image_model(bytes, &args.image)?;
+    check_same_model(&image, &float, args)?;
     let d = *model.dims();
     let mut report = serde_json::json!({
         "image": args.image,

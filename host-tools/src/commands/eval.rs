@@ -17,9 +17,10 @@ use inkling_core::session::DEFAULT_MAX_STEPS;
 
 use inkling_core::session::{WordFilter, WordList};
 
-use super::suggest::{read_word_list, MAX_COUNT};
+use super::suggest::read_word_list;
 use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 use crate::keystroke_savings::simulation::whole_words;
 use crate::keystroke_savings::{compare, keypad_entry, Comparison, FrequencyBaseline, KeypadCount};
 use crate::model_file::ModelFile;
@@ -90,12 +91,8 @@ fn baseline(args: &EvalArgs) -> Result<Option<FrequencyBaseline>, HostError> {
     if !args.savings && !args.keypad {
         return Ok(None);
     }
-    if args.count > MAX_COUNT {
-        return Err(HostError::Usage(format!(
-            "--count {} is more than the {MAX_COUNT} a session holds",
-            args.count
-        )));
-    }
+    super::checks::count("--count", args.count)?;
+    super::checks::at_least_one("--max-bytes", args.max_bytes)?;
     let corpus_path = args.baseline_corpus.as_ref().ok_or_else(|| {
         HostError::Usage(
             "--savings and --keypad need --baseline-corpus FILE: the baseline's word counts \
@@ -328,6 +325,9 @@ fn print_table(args: &EvalArgs, reports: &[TextReport]) {
 
 /// Runs `inkling eval`.
 pub fn run(args: &EvalArgs) -> Result<(), HostError> {
+    if let Some(against) = &args.against {
+        check(against, Wanted::Model)?;
+    }
     let mut texts = Vec::with_capacity(args.text.len());
     for path in &args.text {
         let text = std::fs::read(path).map_err(HostError::io(path))?;

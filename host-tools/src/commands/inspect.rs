@@ -3,6 +3,7 @@
 use std::path::PathBuf;
 
 use crate::error::HostError;
+use crate::file_kind::{check, Wanted};
 use crate::model_file::image_model;
 
 /// Arguments of `inkling inspect`.
@@ -20,6 +21,10 @@ pub struct InspectArgs {
 
 /// Runs `inkling inspect`.
 pub fn run(args: &InspectArgs) -> Result<(), HostError> {
+    check(&args.image, Wanted::Image)?;
+    if let Some(beams) = args.beams {
+        super::checks::count("--beams", beams)?;
+    }
     let bytes = std::fs::read(&args.image).map_err(HostError::io(&args.image))?;
     let model = image_model(&bytes, &args.image)?;
     let d = *model.dims();

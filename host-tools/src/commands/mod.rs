@@ -2,6 +2,7 @@
 
 pub mod bench;
 pub mod budget;
+pub mod checks;
 pub mod convert;
 pub mod demo;
 pub mod eval;

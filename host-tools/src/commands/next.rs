@@ -25,6 +25,20 @@ pub struct NextArgs {
     pub json: bool,
 }
 
+/// A byte as the text output shows it: an ASCII character quoted (`'a'`, `'\n'`); any other
+/// byte as its hex escape and what it is in UTF-8 (RFC 3629), never as the Latin-1 letter
+/// of the same number.
+fn shown_byte(byte: u8) -> String {
+    match byte {
+        0x00..=0x7F => format!("{:?}", char::from(byte)),
+        0x80..=0xBF => format!("\\x{byte:02X} (continues a UTF-8 character)"),
+        0xC2..=0xDF => format!("\\x{byte:02X} (starts a 2-byte UTF-8 character)"),
+        0xE0..=0xEF => format!("\\x{byte:02X} (starts a 3-byte UTF-8 character)"),
+        0xF0..=0xF4 => format!("\\x{byte:02X} (starts a 4-byte UTF-8 character)"),
+        _ => format!("\\x{byte:02X} (never in UTF-8)"),
+    }
+}
+
 /// Runs `inkling next`.
 pub fn run(args: &NextArgs) -> Result<(), HostError> {
     if args.text.is_empty() {
@@ -65,7 +79,7 @@ pub fn run(args: &NextArgs) -> Result<(), HostError> {
         println!("{v}");
     } else {
         for &b in order.iter().take(args.top) {
-            println!("{:>8.4}  {:?}", logp[b].exp(), char::from(b as u8));
+            println!("{:>8.4}  {}", logp[b].exp(), shown_byte(b as u8));
         }
     }
     Ok(())

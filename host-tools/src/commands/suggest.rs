@@ -2,8 +2,11 @@
 
 use std::path::{Path, PathBuf};
 
+use std::cmp::Ordering;
+
 use inkling_core::session::{
-    SearchOptions, Session, Suggestions, WordFilter, WordList, DEFAULT_MAX_STEPS,
+    is_boundary, word_order, SearchOptions, Session, Suggestions, WordFilter, WordList,
+    DEFAULT_MAX_STEPS,
 };
 use inkling_core::{Model, Scratch};
 
@@ -24,10 +27,12 @@ pub struct SearchArgs {
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
-    /// Words never offered: a file with one word per line (sorted here).
+    /// Words never offered, in any case: a file with one word per line (lines starting
+    /// with `#` are comments; sorted here).
     #[arg(long)]
     pub deny: Option<PathBuf>,
-    /// The only words offered: a file with one word per line (sorted here).
+    /// The only words offered, in any case ("tamsel" allows "Tamsel"): a file with one word
+    /// per line (lines starting with `#` are comments; sorted here).
     #[arg(long)]
     pub lexicon: Option<PathBuf>,
     /// Engine steps the search may take.
@@ -55,17 +60,42 @@ pub fn run(args: &SuggestArgs) -> Result<(), HostError> {
     Ok(())
 }
 
-/// A word list file made ready for the core: one word per line, `\r` and empty lines
-/// dropped, sorted bytewise, duplicates removed (the order the firmware's list must have).
+/// A word list file made ready for the core: one word per line (surrounding whitespace,
+/// blank lines and `#` comment lines dropped), sorted in the core's [`word_order`] (case
+/// folded), each word once in any case: the order the firmware's list must have. A line
+/// that is not one word (it holds a space or punctuation, as prose does) or a file without
+/// words is refused, naming the line.
 pub fn read_word_list(path: &Path) -> Result<Vec<u8>, HostError> {
     let bytes = std::fs::read(path).map_err(HostError::io(path))?;
-    let mut words: Vec<&[u8]> = bytes
-        .split(|&b| b == b'\n')
-        .map(|w| w.strip_suffix(b"\r").unwrap_or(w))
-        .filter(|w| !w.is_empty())
-        .collect();
-    words.sort_unstable();
-    words.dedup();
+    let refuse = |problem: String| HostError::WrongFile {
+        path: path.to_path_buf(),
+        problem,
+    };
+    let mut words: Vec<&[u8]> = Vec::new();
+    for (number, line) in bytes.split(|&b| b == b'\n').enumerate() {
+        let word = line.trim_ascii();
+        if word.is_empty() || word.starts_with(b"#") {
+            continue;
+        }
+        if word.iter().any(|&b| is_boundary(b)) {
+            return Err(refuse(format!(
+                "line {} ({:?}) is not one word: a word list holds one word per line \
+                 (letters, digits, ' and -; lines starting with # are comments)",
+                number + 1,
+                String::from_utf8_lossy(word)
+            )));
+        }
+        words.push(word);
+    }
+    if words.is_empty() {
+        return Err(refuse(
+            "no words in it: a word list holds one word per line (lines starting with # are \
+             comments)"
+                .into(),
+        ));
+    }
+    words.sort_unstable_by(|a, b| word_order(a, b));
+    words.dedup_by(|a, b| word_order(a, b) == Ordering::Equal);
     Ok(words.join(&b'\n'))
 }
 
@@ -84,12 +114,7 @@ pub fn with_session(
         &SearchOptions<'_>,
     ) -> Result<Suggestions<MAX_COUNT>, inkling_core::Error>,
 ) -> Result<Suggestions<MAX_COUNT>, HostError> {
-    if args.count > MAX_COUNT {
-        return Err(HostError::Usage(format!(
-            "--count {} is more than the {MAX_COUNT} this command holds",
-            args.count
-        )));
-    }
+    super::checks::count("--count", args.count)?;
     let deny = args.deny.as_deref().map(read_word_list).transpose()?;
     let lexicon = args.lexicon.as_deref().map(read_word_list).transpose()?;
     let filter = WordFilter {

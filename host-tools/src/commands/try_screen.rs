@@ -8,8 +8,13 @@
 //! - `Enter`: a new line (the end of a message, as in the training text);
 //! - `Backspace`: delete the last character (inside a word or across a boundary);
 //! - `Esc` or `Ctrl-C`: quit; the terminal is restored however the screen ends.
+//!
+//! The screen fits the terminal: when rows are short, the key help and the blank lines go
+//! first, then suggestions beyond the first, then older lines of text; the line being typed
+//! always stays. Long lines are cut to the terminal's width. `try` needs an interactive
+//! terminal; scripts use `inkling suggest` or `inkling keys`.
 
-use std::io::{self, Write};
+use std::io::{self, IsTerminal, Write};
 use std::path::PathBuf;
 
 use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
@@ -170,33 +175,82 @@ impl<W: Weights> Screen<'_, W> {
         Ok(true)
     }
 
-    fn draw(&self, out: &mut impl Write, title: &str) -> io::Result<()> {
-        queue!(out, cursor::MoveTo(0, 0), terminal::Clear(ClearType::All))?;
-        let mut lines = vec![
-            title.to_string(),
-            "Tab: take the marked suggestion  Up/Down: move the mark  Enter: new line  \
-             Backspace: delete  Esc or Ctrl-C: quit"
-                .to_string(),
-            String::new(),
-        ];
+    /// The screen's lines for a terminal of `rows` × `cols` (see the module docs for what
+    /// goes first when rows are short).
+    fn lines(&self, title: &str, rows: usize, cols: usize) -> Vec<String> {
         let text: Vec<&[u8]> = self.text.split(|&b| b == b'\n').collect();
-        let shown = &text[text.len().saturating_sub(TEXT_LINES)..];
-        for (i, line) in shown.iter().enumerate() {
-            let caret = if i + 1 == shown.len() { "_" } else { "" };
-            lines.push(format!("| {}{caret}", String::from_utf8_lossy(line)));
+        let text_lines: Vec<String> = text
+            .iter()
+            .enumerate()
+            .map(|(i, line)| {
+                let caret = if i + 1 == text.len() { "_" } else { "" };
+                format!("| {}{caret}", String::from_utf8_lossy(line))
+            })
+            .collect();
+        let suggestions: Vec<String> = (self.found.list.iter().enumerate())
+            .map(|(i, s)| {
+                let mark = if i == self.mark { ">" } else { " " };
+                let tag = if s.finished { "" } else { "  (unfinished)" };
+                format!(
+                    "{mark} {}. {}{tag}",
+                    i + 1,
+                    String::from_utf8_lossy(&s.text)
+                )
+            })
+            .collect();
+        let status = self.status();
+        // Rows for each part, the most needed first: the line being typed, the status, the
+        // first suggestion, the other suggestions, older text, the title, then the help and
+        // the blank lines between parts.
+        let mut left = rows;
+        let mut take = |wanted: usize| {
+            let n = wanted.min(left);
+            left -= n;
+            n
+        };
+        let typing = take(1);
+        let status_rows = take(1);
+        let first = take(suggestions.len().min(1));
+        let more = take(suggestions.len().saturating_sub(1));
+        let older = take(text_lines.len().min(TEXT_LINES).saturating_sub(1));
+        let title_rows = take(1);
+        let help_rows = take(1);
+        let blanks = take(3);
+        let mut lines = Vec::new();
+        lines.extend(std::iter::repeat_n(title.to_string(), title_rows));
+        if help_rows > 0 {
+            lines.push(
+                "Tab: take the marked suggestion  Up/Down: move the mark  Enter: new line  \
+                 Backspace: delete  Esc or Ctrl-C: quit"
+                    .to_string(),
+            );
         }
-        lines.push(String::new());
-        for (i, s) in self.found.list.iter().enumerate() {
-            let mark = if i == self.mark { ">" } else { " " };
-            let tag = if s.finished { "" } else { "  (unfinished)" };
-            lines.push(format!(
-                "{mark} {}. {}{tag}",
-                i + 1,
-                String::from_utf8_lossy(&s.text)
-            ));
+        let blank = |lines: &mut Vec<String>, i: usize| {
+            if blanks > i {
+                lines.push(String::new());
+            }
+        };
+        blank(&mut lines, 0);
+        let shown = older + typing;
+        lines.extend(
+            text_lines[text_lines.len().saturating_sub(shown)..]
+                .iter()
+                .cloned(),
+        );
+        blank(&mut lines, 1);
+        lines.extend(suggestions.into_iter().take(first + more));
+        blank(&mut lines, 2);
+        lines.extend(std::iter::repeat_n(status, status_rows));
+        for line in &mut lines {
+            if let Some((cut, _)) = line.char_indices().nth(cols) {
+                line.truncate(cut);
+            }
         }
-        lines.push(String::new());
-        lines.push(format!(
+        lines
+    }
+
+    fn status(&self) -> String {
+        format!(
             "key {}, {} steps{}  {}",
             self.keys,
             self.found.steps,
@@ -206,9 +260,19 @@ impl<W: Weights> Screen<'_, W> {
                 ""
             },
             self.note
-        ));
-        for line in lines {
-            queue!(out, Print(line), Print("\r\n"))?;
+        )
+    }
+
+    fn draw(&self, out: &mut impl Write, title: &str) -> io::Result<()> {
+        queue!(out, cursor::MoveTo(0, 0), terminal::Clear(ClearType::All))?;
+        let (cols, rows) = terminal::size()?;
+        let lines = self.lines(title, usize::from(rows), usize::from(cols));
+        // No line break after the last line: on the bottom row it would scroll the screen.
+        for (i, line) in lines.iter().enumerate() {
+            if i > 0 {
+                queue!(out, Print("\r\n"))?;
+            }
+            queue!(out, Print(line))?;
         }
         out.flush()
     }
@@ -216,11 +280,14 @@ impl<W: Weights> Screen<'_, W> {
 
 /// Runs `inkling try`.
 pub fn run(args: &TryArgs) -> Result<(), HostError> {
-    if args.count > MAX_COUNT {
-        return Err(HostError::Usage(format!(
-            "--count {} is more than the {MAX_COUNT} a session holds",
-            args.count
-        )));
+    super::checks::count("--count", args.count)?;
+    if !io::stdin().is_terminal() || !io::stdout().is_terminal() {
+        return Err(HostError::Usage(
+            "`inkling try` needs an interactive terminal (its input or output is not one); \
+             for scripts, `inkling suggest` and `inkling keys` give the same suggestions as \
+             text or JSON"
+                .into(),
+        ));
     }
     let file = ModelFile::open(&args.model)?;
     let title = format!(
@@ -272,7 +339,44 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
 
 #[cfg(test)]
 mod tests {
-    use super::last_char_len;
+    use super::*;
+
+    #[test]
+    fn a_short_terminal_keeps_the_line_being_typed() {
+        let image = inkling_core::image::example::tiny_image();
+        let model = inkling_core::Model::from_bytes(&image).unwrap();
+        let mut memory = SessionMemory::new(model.dims(), MAX_COUNT);
+        let session = memory.session::<_, MAX_COUNT>(model).unwrap();
+        let mut screen = Screen {
+            session,
+            options: SearchOptions::new(3),
+            text: b"first line\nsecond line\nthird li".to_vec(),
+            found: Suggestions::default(),
+            mark: 0,
+            keys: 0,
+            note: String::new(),
+        };
+        let text = screen.text.clone();
+        screen.session.push_bytes(&text).unwrap();
+        screen.refresh().unwrap();
+        assert_eq!(screen.found.list.len(), 3);
+        let full = screen.lines("title", 40, 200);
+        assert!(full.iter().any(|l| l == "| first line"));
+        for rows in 1..12 {
+            let lines = screen.lines("title", rows, 200);
+            // Never more lines than rows, so nothing scrolls; the typed line is always there.
+            assert!(lines.len() <= rows, "{rows} rows: {lines:?}");
+            assert!(
+                lines.iter().any(|l| l == "| third li_"),
+                "{rows} rows: {lines:?}"
+            );
+        }
+        // A narrow terminal cuts lines instead of wrapping them onto more rows.
+        assert!(screen
+            .lines("title", 40, 8)
+            .iter()
+            .all(|l| l.chars().count() <= 8));
+    }
 
     #[test]
     fn backspace_deletes_one_utf8_character() {
