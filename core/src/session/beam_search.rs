@@ -1,22 +1,27 @@
 //! Completion by beam search over bytes, in `K` caller-owned beam states.
 //!
-//! From the state after the text typed so far, each round scores every one-byte extension
-//! of every beam (score = sum of natural-log probabilities, see [`LogSoftmax`]):
+//! From the state after the text typed so far, each round steps every beam once through the
+//! model (the root, the text itself, needs no step) and at once scores every one-byte
+//! extension of it (score = sum of natural-log probabilities, see [`LogSoftmax`]):
 //! - a word boundary byte finishes the beam's word: it goes, with the boundary's probability
 //!   included, to a separate list of the `width` best finished words (distinct texts; the
 //!   best boundary counts);
-//! - any other byte is a candidate; the `width` best candidates become the next beams and
-//!   each is stepped once through the model.
+//! - any other byte is a candidate; the `width` best candidates become the next beams.
 //!
-//! A candidate no better than the worst of a full finished list is dropped: scores only fall
-//! as words grow, so it could never finish better. The search ends when no candidate is
-//! left, or when the step budget is spent (then the unstepped beams are still reported as
-//! unfinished). Words never exceed [`MAX_WORD_LEN`]: a beam at that length may only end.
+//! Scores only fall as words grow, so a word that can no longer enter the results is never
+//! stepped: a candidate (or a beam, checked again just before its step) must beat the worst
+//! of a full finished list. Besides, the search keeps only what is likely enough to be
+//! worth a step ([`SearchOptions::margin`]): a candidate more than the margin below the best
+//! candidate of its round, or below the best finished word, is dropped. The search ends when
+//! no candidate is left, or when the step budget is spent (then the beams not yet stepped are
+//! still reported as unfinished). Words never exceed [`MAX_WORD_LEN`]: a beam at that length
+//! may only end.
 //!
-//! Only `width` beam states are needed, not one per candidate: after choosing the best
-//! (beam, byte) pairs, the first child of each parent takes over its parent's slot and the
-//! other children copy the parent's state into slots freed by parents with no child
-//! chosen. Every copy is made before any step, since a step overwrites its slot.
+//! Only `width` beam states are needed, not one per candidate, and no logits are kept: after
+//! choosing the best (beam, byte) pairs, the first child of each parent takes over its
+//! parent's slot and the other children copy the parent's state into slots freed by parents
+//! with no child chosen (the root's state is never written: its children get copies). Every
+//! copy is made before any step of the round, since a step overwrites its slot.
 
 use super::beam_slots::Slots;
 use super::keypad::KeyMap;
@@ -63,16 +68,17 @@ impl Shape<'_> {
     }
 }
 
-/// Where the search starts: the state after the text so far, the logits after it and the
-/// bytes of the word typed so far.
+/// Where the search starts: the slot holding the state after the text so far (never
+/// written), the logits after it and the bytes of the word typed so far.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Root<'r> {
-    pub(crate) state: &'r [f32],
+    pub(crate) slot: usize,
     pub(crate) logits: &'r [f32],
     pub(crate) word: &'r [u8],
 }
 
-/// A live beam: its word, its score and the slot holding its state and next-byte logits.
+/// A live beam: its word, its score and the slot holding its state. Every beam but the root
+/// holds its parent's state until it is stepped with its last byte.
 #[derive(Debug, Clone)]
 pub(crate) struct Beam {
     text: Word,
@@ -88,12 +94,14 @@ pub(crate) struct Candidate {
     score: f32,
 }
 
-/// Runs the search with `options.width <= K` beams held in `slots` (at least `K` of them).
+/// Runs the search with `options.width <= K` beams, their states in the `K` slots from
+/// `first_beam` on.
 pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
     weights: &W,
     scratch: &mut Scratch<'_>,
     slots: &mut Slots<'_>,
     root: Root<'_>,
+    first_beam: usize,
     shape: Shape<'_>,
     options: &SearchOptions<'_>,
 ) -> Result<Suggestions<K>, Error> {
@@ -112,33 +120,60 @@ pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
     if width == 0 {
         return Ok(out);
     }
-    slots.load(0, root.state, root.logits);
+    let prefix = root.word.len();
     let mut beams: heapless::Vec<Beam, K> = heapless::Vec::new();
     let _ = beams.push(Beam {
         text,
         score: 0.0,
-        slot: 0,
+        slot: root.slot,
     });
-    let prefix = root.word.len();
-
+    let mut stopped: heapless::Vec<Beam, K> = heapless::Vec::new();
+    let mut first_round = true;
     while !beams.is_empty() {
-        let candidates = extend(&beams, slots, shape, options, prefix, &mut out.list);
-        beams = assign_slots(&beams, &candidates, slots);
-        for (beam, candidate) in beams.iter().zip(candidates.iter()) {
-            if out.steps >= options.max_steps {
+        // Each beam is stepped and its extensions scored at once, so no beam keeps logits;
+        // a beam that can no longer finish among the results is dropped unstepped.
+        let mut parents: heapless::Vec<Beam, K> = heapless::Vec::new();
+        let mut candidates: heapless::Vec<Candidate, K> = heapless::Vec::new();
+        for beam in beams {
+            let logits = if first_round {
+                root.logits
+            } else if !is_open(&out.list, options, beam.score) {
+                continue;
+            } else if out.steps >= options.max_steps {
                 out.cut_short = true;
-                break;
-            }
-            slots.step(beam.slot, weights, scratch, candidate.byte)?;
-            out.steps += 1;
+                let _ = stopped.push(beam);
+                continue;
+            } else {
+                let byte = beam.text.last().copied().unwrap_or(0);
+                out.steps += 1;
+                slots.feed(beam.slot, weights, scratch, &[byte])?
+            };
+            let parent = parents.len();
+            let depth = beam.text.len().saturating_sub(prefix);
+            extend(
+                &beam,
+                parent,
+                logits,
+                depth,
+                shape,
+                options,
+                &mut out.list,
+                &mut candidates,
+            );
+            let _ = parents.push(beam);
         }
+        first_round = false;
         if out.cut_short {
             break;
         }
+        let best = candidates.first().map_or(f32::NEG_INFINITY, |c| c.score);
+        candidates
+            .retain(|c| c.score >= best - options.margin && is_open(&out.list, options, c.score));
+        beams = assign_slots(&parents, &candidates, slots, first_beam);
     }
 
     // Too few finished words: the best beams the budget stopped, flagged unfinished.
-    for beam in &beams {
+    for beam in &stopped {
         if out.list.len() >= width {
             break;
         }
@@ -154,101 +189,103 @@ pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
     Ok(out)
 }
 
-/// One round: scores every one-byte extension of every beam, offers the finished ones to
-/// `finished` and returns the best `width` unfinished ones, best first.
-fn extend<const K: usize>(
-    beams: &[Beam],
-    slots: &Slots<'_>,
-    shape: Shape<'_>,
-    options: &SearchOptions<'_>,
-    prefix: usize,
-    finished: &mut heapless::Vec<Suggestion, K>,
-) -> heapless::Vec<Candidate, K> {
-    let width = options.width;
-    let mut candidates: heapless::Vec<Candidate, K> = heapless::Vec::new();
-    for (parent, beam) in beams.iter().enumerate() {
-        let logits = slots.logits(beam.slot);
-        let norm = LogSoftmax::of(logits);
-        let depth = beam.text.len().saturating_sub(prefix);
-        for (byte, &logit) in (0..=255u8).zip(logits) {
-            let score = beam.score + norm.log_prob(logit);
-            if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
-                continue;
-            }
-            if is_boundary(byte) {
-                if !beam.text.is_empty()
-                    && shape.may_end(depth)
-                    && options.filter.offers(&beam.text)
-                {
-                    offer_finished(finished, width, &beam.text, score);
-                }
-            } else if !beam.text.is_full()
-                && shape.allows(depth, byte)
-                && beats_worst(&candidates, width, score, |c| c.score)
-            {
-                let mut text = beam.text.clone();
-                let _ = text.push(byte);
-                if options.filter.may_extend(&text) {
-                    insert_ranked(
-                        &mut candidates,
-                        width,
-                        Candidate {
-                            parent,
-                            byte,
-                            score,
-                        },
-                        |c| c.score,
-                    );
-                }
-            }
-        }
-    }
-    candidates
+/// Whether a word scored `score` so far may still finish among the results: it must beat
+/// the worst of a full list and come within the margin of the best finished word (scores
+/// only fall as words grow).
+fn is_open(finished: &[Suggestion], options: &SearchOptions<'_>, score: f32) -> bool {
+    let best = finished.first().map_or(f32::NEG_INFINITY, |s| s.logprob);
+    beats_worst(finished, options.width, score, |s| s.logprob) && score >= best - options.margin
 }
 
-/// The beams of the next round, one per candidate (same order), with their slots assigned
-/// and parent states copied where a parent has several children.
-fn assign_slots<const K: usize>(
-    beams: &[Beam],
-    candidates: &[Candidate],
-    slots: &mut Slots<'_>,
-) -> heapless::Vec<Beam, K> {
-    let mut has_child = [false; K];
-    for c in candidates {
-        if let Some(flag) = has_child.get_mut(c.parent) {
-            *flag = true;
+/// Scores every one-byte extension of `beam` (index `parent` of its round) from the logits
+/// after it: finished words go to `finished`, the best unfinished ones to `candidates`.
+#[allow(clippy::too_many_arguments)]
+fn extend<const K: usize>(
+    beam: &Beam,
+    parent: usize,
+    logits: &[f32],
+    depth: usize,
+    shape: Shape<'_>,
+    options: &SearchOptions<'_>,
+    finished: &mut heapless::Vec<Suggestion, K>,
+    candidates: &mut heapless::Vec<Candidate, K>,
+) {
+    let width = options.width;
+    let norm = LogSoftmax::of(logits);
+    for (byte, &logit) in (0..=255u8).zip(logits) {
+        let score = beam.score + norm.log_prob(logit);
+        if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
+            continue;
+        }
+        if is_boundary(byte) {
+            if !beam.text.is_empty() && shape.may_end(depth) && options.filter.offers(&beam.text) {
+                offer_finished(finished, width, &beam.text, score);
+            }
+        } else if !beam.text.is_full()
+            && shape.allows(depth, byte)
+            && beats_worst(candidates, width, score, |c| c.score)
+        {
+            let mut text = beam.text.clone();
+            let _ = text.push(byte);
+            if options.filter.may_extend(&text) {
+                insert_ranked(
+                    candidates,
+                    width,
+                    Candidate {
+                        parent,
+                        byte,
+                        score,
+                    },
+                    |c| c.score,
+                );
+            }
         }
     }
-    // A slot is busy if its beam has a child (that child inherits it).
+}
+
+/// The beams of the next round, one per candidate (same order), each in a slot holding its
+/// parent's state: the first child of a beam takes over its parent's slot (the root's is
+/// never written: its children get copies), the others copies in slots no child inherits.
+fn assign_slots<const K: usize>(
+    parents: &[Beam],
+    candidates: &[Candidate],
+    slots: &mut Slots<'_>,
+    first_beam: usize,
+) -> heapless::Vec<Beam, K> {
+    let beam_slot = |slot: usize| slot.checked_sub(first_beam).filter(|&i| i < K);
     let mut busy = [false; K];
-    for (beam, _) in beams.iter().zip(has_child).filter(|(_, child)| *child) {
-        if let Some(flag) = busy.get_mut(beam.slot) {
+    for c in candidates {
+        if let Some(flag) = parents
+            .get(c.parent)
+            .and_then(|p| beam_slot(p.slot))
+            .and_then(|i| busy.get_mut(i))
+        {
             *flag = true;
         }
     }
     let mut inherited = [false; K];
     let mut next: heapless::Vec<Beam, K> = heapless::Vec::new();
     for c in candidates {
-        let Some(parent) = beams.get(c.parent) else {
+        let Some(parent) = parents.get(c.parent) else {
             continue;
         };
         let first_child = inherited
             .get_mut(c.parent)
             .map(|flag| !core::mem::replace(flag, true))
             .unwrap_or(false);
-        let slot = if first_child {
+        let slot = if first_child && beam_slot(parent.slot).is_some() {
             parent.slot
         } else {
-            // There are at most K children and each parent with a child keeps one slot, so
-            // a free slot always exists.
+            // At most K children, and each parent in a beam slot keeps one for its first
+            // child: a free slot always exists.
             let Some(free) = busy.iter().position(|b| !b) else {
                 continue;
             };
             if let Some(flag) = busy.get_mut(free) {
                 *flag = true;
             }
-            slots.copy_state(parent.slot, free);
-            free
+            slots.copy_state(parent.slot, first_beam + free);
+            first_beam + free
         };
         let mut text = parent.text.clone();
         let _ = text.push(c.byte);
@@ -319,7 +356,8 @@ mod tests {
 
     /// The log-probability of `text` after `context`, by the chain rule
     /// `log p(x_1..x_n) = Σ log p(x_i | x_<i)`, with log-softmax evaluated in f64 from its
-    /// definition on a fresh state; a finished word adds its most likely boundary byte.
+    /// definition on a fresh state kept as the session keeps it (rounded to binary16 after
+    /// every byte); a finished word adds its most likely boundary byte.
     fn chain_rule_logprob(model: &Model<'_>, context: &[u8], s: &Suggestion) -> f64 {
         let dims = *model.dims();
         let mut state = [0.0f32; 512];
@@ -329,6 +367,9 @@ mod tests {
         let mut logits = [0.0f32; 256];
         let mut feed = |b: u8, logits: &mut [f32; 256]| {
             logits.copy_from_slice(step(model, state, &mut scratch, b).unwrap());
+            for v in state.iter_mut() {
+                *v = half::f16::from_f32(*v).to_f32();
+            }
         };
         feed(PRIME_BYTE, &mut logits);
         let word_start = context

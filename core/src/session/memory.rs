@@ -5,27 +5,31 @@ use super::beam_slots::Slots;
 use super::suggestion::Suggestion;
 use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
 use crate::image::dims::Dims;
+use crate::image::format::VOCAB;
 
 impl Dims {
     /// f32 elements of the buffer a [`Session`](crate::session::Session) with `k` beams
-    /// takes: `k + 2` engine states (the live state, the snapshot at the last word boundary
-    /// and `k` beams), each followed by its 256 next-byte logits.
+    /// takes: the 256 next-byte logits after the live state and after the snapshot at the
+    /// last word boundary, one block's state in f32 (the work space of a step), and `k + 2`
+    /// engine states (the live state, the snapshot and `k` beams) in 16-bit floats, two to
+    /// an element.
     ///
     /// ```
-    /// use inkling_core::image::example::TINY_DIMS;
-    /// let s = TINY_DIMS.state_len();
-    /// assert_eq!(TINY_DIMS.session_floats(3), (3 + 2) * (s + 256));
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// let s = D.state_len();
+    /// assert_eq!(D.session_floats(3), 2 * 256 + D.block_state_len() + (3 + 2) * s / 2);
     /// ```
     pub const fn session_floats(&self, k: usize) -> usize {
-        (k + 2) * Slots::stride(self.state_len())
+        2 * VOCAB + Slots::floats(self, k + 2)
     }
 
     /// Bytes of RAM one session with `k` beams and a history of `history` bytes needs:
     /// - the states buffer, `4 ·` [`session_floats`](Dims::session_floats)`(k)`;
     /// - the engine scratch, [`scratch_bytes`](Dims::scratch_bytes);
     /// - the fixed text buffers in the session: the history and the current word;
-    /// - the search's own lists on the stack while it runs: the beams of two rounds, the
-    ///   candidates and the results, `k` of each.
+    /// - the search's own lists on the stack while it runs: the beams of a round, its
+    ///   parents and the beams the budget stopped, the candidates and the results, `k` of
+    ///   each.
     ///
     /// ```
     /// use inkling_core::{Dims, image::example::TINY_DIMS};
@@ -34,7 +38,7 @@ impl Dims {
     /// // A model with 3 blocks, I = 128, N = 8, K = 4: the states dominate.
     /// let dims = Dims { d_model: 96, d_inner: 128, d_state: 8, d_conv: 4, dt_rank: 6,
     ///                   blocks: 3, tied_head: true, norm_eps: 1e-5, group: 0 };
-    /// assert!(dims.session_bytes(3, 128) < 100 * 1024);
+    /// assert!(dims.session_bytes(3, 128) < 60 * 1024);
     /// ```
     pub const fn session_bytes(&self, k: usize, history: usize) -> usize {
         4 * self.session_floats(k)
@@ -48,8 +52,8 @@ impl Dims {
 /// Bytes of the lists a search keeps on the stack for `k` beams.
 const fn search_stack_bytes(k: usize) -> usize {
     use core::mem::size_of;
-    k * (2 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
-        + 3 * k * size_of::<bool>()
+    k * (3 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
+        + 2 * k * size_of::<bool>()
         + MAX_WORD_LEN
 }
 

@@ -48,7 +48,7 @@ pub mod word_list;
 
 pub use keypad::{ByteSet, KeyMap};
 pub use log_softmax::LogSoftmax;
-pub use suggestion::{SearchOptions, Suggestion, Suggestions, DEFAULT_MAX_STEPS};
+pub use suggestion::{SearchOptions, Suggestion, Suggestions, DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
 pub use text_history::{TextHistory, DEFAULT_HISTORY};
 pub use typing_session::Session;
 pub use word_boundary::{is_boundary, PRIME_BYTE};

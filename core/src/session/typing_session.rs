@@ -10,6 +10,14 @@ use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
 use crate::engine::weights::Weights;
 use crate::error::Error;
+use crate::image::format::VOCAB;
+
+/// The slot of the live state, the state after all the text.
+const LIVE: usize = 0;
+/// The slot of the snapshot, the state after the last word boundary.
+const SNAPSHOT: usize = 1;
+/// The first of the `K` beam slots.
+const FIRST_BEAM: usize = 2;
 
 /// A typing session: the model's state over the text typed so far, the word being typed and
 /// the last `H` bytes, with `K` beam states for completion searches.
@@ -30,8 +38,10 @@ use crate::error::Error;
 ///   such a backspace the model sees only the last `H` bytes (a session shorter than `H`
 ///   bytes loses nothing, and gives exactly the state of typing the shorter text afresh).
 /// - **Memory.** The caller gives one f32 buffer of
-///   [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements (the live state and
-///   the snapshot, each with its logits, and `K` beam states with theirs) and a [`Scratch`];
+///   [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements (the logits after
+///   the live state and after the snapshot, and `K + 2` states: the live state, the snapshot
+///   and `K` beams, each kept in 16-bit floats, see
+///   [`state_store`](crate::engine::state_store)) and a [`Scratch`];
 ///   the session itself holds the fixed word and history buffers. See
 ///   [`Dims::session_bytes`](crate::Dims::session_bytes). Nothing grows with the text.
 ///
@@ -58,12 +68,12 @@ use crate::error::Error;
 pub struct Session<'b, W: Weights, const K: usize, const H: usize = DEFAULT_HISTORY> {
     weights: W,
     scratch: Scratch<'b>,
-    /// The state after all the text, and the logits after it.
-    live: Slots<'b>,
-    /// The state after the last word boundary, and the logits after it.
-    boundary: Slots<'b>,
-    /// `K` beam states for searches.
-    beams: Slots<'b>,
+    /// The live state, the snapshot at the last word boundary and `K` beam states.
+    states: Slots<'b>,
+    /// The logits after the live state.
+    live_logits: &'b mut [f32],
+    /// The logits after the snapshot.
+    snapshot_logits: &'b mut [f32],
     word: WordBuffer,
     history: TextHistory<H>,
 }
@@ -97,16 +107,15 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 actual: floats.len(),
             });
         }
-        let s = dims.state_len();
-        let (live, rest) = Slots::carve(floats, s, 1)?;
-        let (boundary, rest) = Slots::carve(rest, s, 1)?;
-        let (beams, _) = Slots::carve(rest, s, K)?;
+        let (live_logits, rest) = floats.split_at_mut(VOCAB);
+        let (snapshot_logits, rest) = rest.split_at_mut(VOCAB);
+        let (states, _) = Slots::carve(rest, &dims, FIRST_BEAM + K)?;
         let mut session = Session {
             weights,
             scratch,
-            live,
-            boundary,
-            beams,
+            states,
+            live_logits,
+            snapshot_logits,
             word: WordBuffer::new(),
             history: TextHistory::new(),
         };
@@ -159,7 +168,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// ```
     pub fn push(&mut self, byte: u8) -> Result<(), Error> {
         if is_boundary(byte) {
-            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            self.feed_live(&[byte])?;
             self.word.clear();
             self.snapshot();
         } else {
@@ -169,7 +178,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                     capacity: MAX_WORD_LEN,
                 });
             }
-            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            self.feed_live(&[byte])?;
             self.word.push(byte)?;
         }
         self.history.push(byte);
@@ -218,10 +227,10 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         }
         if self.word.pop().is_some() {
             // Inside the word: back to the snapshot, then the rest of the word again.
-            let (state, logits) = self.boundary.parts(0);
-            self.live.load(0, state, logits);
-            self.live
-                .feed(0, &self.weights, &mut self.scratch, self.word.as_bytes())?;
+            self.states.copy_state(SNAPSHOT, LIVE);
+            self.live_logits.copy_from_slice(self.snapshot_logits);
+            let word = self.word.clone();
+            self.feed_live(word.as_bytes())?;
         } else {
             self.recover()?;
         }
@@ -233,12 +242,12 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         self.prime()?;
         self.snapshot();
         self.word.clear();
-        for b in self.history.iter() {
-            self.live.step(0, &self.weights, &mut self.scratch, b)?;
+        let history = self.history.clone();
+        for b in history.iter() {
+            self.feed_live(&[b])?;
             if is_boundary(b) {
                 self.word.clear();
-                let (state, logits) = self.live.parts(0);
-                self.boundary.load(0, state, logits);
+                self.snapshot();
             } else {
                 // At most MAX_WORD_LEN bytes follow the last boundary, as pushes ensured.
                 self.word.push(b)?;
@@ -249,15 +258,26 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
 
     /// Zero state, then [`PRIME_BYTE`].
     fn prime(&mut self) -> Result<(), Error> {
-        self.live.reset(0);
-        self.live
-            .step(0, &self.weights, &mut self.scratch, PRIME_BYTE)
+        self.states.reset(LIVE);
+        self.feed_live(&[PRIME_BYTE])
+    }
+
+    /// Runs `bytes` through the model on the live state and keeps the logits after them.
+    fn feed_live(&mut self, bytes: &[u8]) -> Result<(), Error> {
+        if bytes.is_empty() {
+            return Ok(());
+        }
+        let logits = self
+            .states
+            .feed(LIVE, &self.weights, &mut self.scratch, bytes)?;
+        self.live_logits.copy_from_slice(logits);
+        Ok(())
     }
 
     /// Keeps the live state as the boundary snapshot.
     fn snapshot(&mut self) {
-        let (state, logits) = self.live.parts(0);
-        self.boundary.load(0, state, logits);
+        self.states.copy_state(LIVE, SNAPSHOT);
+        self.snapshot_logits.copy_from_slice(self.live_logits);
     }
 
     /// The `options.width` most likely completions of the current word (or, right after a
@@ -323,17 +343,17 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         shape: Shape<'_>,
         options: &SearchOptions<'_>,
     ) -> Result<Suggestions<K>, Error> {
-        let (state, logits) = self.live.parts(0);
         let root = Root {
-            state,
-            logits,
+            slot: LIVE,
+            logits: self.live_logits,
             word: self.word.as_bytes(),
         };
         search(
             &self.weights,
             &mut self.scratch,
-            &mut self.beams,
+            &mut self.states,
             root,
+            FIRST_BEAM,
             shape,
             options,
         )
@@ -389,7 +409,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn logits(&self) -> &[f32] {
-        self.live.logits(0)
+        self.live_logits
     }
 
     /// The model.
@@ -425,7 +445,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn saved_len(&self) -> usize {
-        2 * Slots::stride(self.weights.dims().state_len())
+        2 * (self.weights.dims().state_len() + VOCAB)
     }
 
     /// Copies the live state and the boundary snapshot (with their logits) into the first
@@ -455,14 +475,17 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
             needed,
             actual,
         })?;
-        for (slots, dst) in [&self.live, &self.boundary]
-            .into_iter()
-            .zip(out.chunks_exact_mut(stride))
+        let state_len = self.weights.dims().state_len();
+        for ((slot, logits), dst) in [
+            (LIVE, &*self.live_logits),
+            (SNAPSHOT, &*self.snapshot_logits),
+        ]
+        .into_iter()
+        .zip(out.chunks_exact_mut(stride))
         {
-            let (state, logits) = slots.parts(0);
-            for (d, &v) in dst.iter_mut().zip(state.iter().chain(logits)) {
-                *d = v;
-            }
+            let (state, after) = dst.split_at_mut(state_len.min(dst.len()));
+            self.states.read(slot, state);
+            after.copy_from_slice(logits);
         }
         Ok(())
     }
@@ -509,12 +532,18 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         for &b in word {
             restored.push(b)?;
         }
-        for (slots, src) in [&mut self.live, &mut self.boundary]
-            .into_iter()
-            .zip(saved.chunks_exact(needed / 2))
-        {
+        let (live, snapshot) = saved.split_at(needed / 2);
+        for (slot, src) in [(LIVE, live), (SNAPSHOT, snapshot)] {
             let (state, logits) = src.split_at_checked(state_len).unwrap_or((&[], &[]));
-            slots.load(0, state, logits);
+            self.states.write(slot, state);
+            let target = if slot == LIVE {
+                &mut *self.live_logits
+            } else {
+                &mut *self.snapshot_logits
+            };
+            for (t, &l) in target.iter_mut().zip(logits) {
+                *t = l;
+            }
         }
         self.word = restored;
         self.history = history.clone();
@@ -625,8 +654,14 @@ mod tests {
             fresh.push_bytes(&text[..cut]).unwrap();
             assert_eq!(bits(edited.logits()), bits(fresh.logits()), "cut {cut}");
             assert_eq!(edited.word(), fresh.word());
-            let (e, f) = (edited.boundary.parts(0), fresh.boundary.parts(0));
-            assert_eq!(e.0, f.0, "snapshot state, cut {cut}");
+            let (mut e, mut f) = ([0.0f32; 512], [0.0f32; 512]);
+            edited.states.read(SNAPSHOT, &mut e);
+            fresh.states.read(SNAPSHOT, &mut f);
+            assert!(
+                e.iter().zip(&f).all(|(a, b)| a.to_bits() == b.to_bits()),
+                "snapshot state, cut {cut}"
+            );
+            assert_eq!(bits(edited.snapshot_logits), bits(fresh.snapshot_logits));
         }
     }
 
@@ -728,6 +763,7 @@ mod tests {
         let lexicon = WordList::new(b"hello\nhelp\nzebra\n").unwrap();
         let options = SearchOptions {
             max_steps: 10_000,
+            margin: f32::INFINITY,
             filter: WordFilter {
                 deny: WordList::EMPTY,
                 lexicon: Some(lexicon),
@@ -813,9 +849,12 @@ mod tests {
         let mut b = Buffers::new();
         let mut s = b.session::<4, 64>(model);
         s.push_bytes(b"go ").unwrap();
-        let found = s
-            .keys(b"4663", &KeyMap::E161, &SearchOptions::new(4))
-            .unwrap();
+        // Every candidate followed, so that four words are found.
+        let every = SearchOptions {
+            margin: f32::INFINITY,
+            ..SearchOptions::new(4)
+        };
+        let found = s.keys(b"4663", &KeyMap::E161, &every).unwrap();
         assert_eq!(found.list.len(), 4);
         for x in &found.list {
             assert!(x.finished && x.text.len() == 4);

@@ -12,7 +12,7 @@
 use std::path::{Path, PathBuf};
 
 use indicatif::{ProgressBar, ProgressStyle};
-use inkling_core::session::DEFAULT_MAX_STEPS;
+use inkling_core::session::{SearchOptions, DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
@@ -53,6 +53,10 @@ pub struct EvalArgs {
     /// Engine steps each search may take (for --savings).
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS, requires = "savings")]
     pub max_steps: usize,
+    /// How far below the best a word may score and still be followed, in nats (for
+    /// --savings; `inf` follows every word that could still be offered).
+    #[arg(long, default_value_t = DEFAULT_MARGIN, requires = "savings")]
+    pub margin: f32,
 }
 
 fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), HostError> {
@@ -107,7 +111,12 @@ fn savings(args: &EvalArgs, text: &[u8]) -> Result<Comparison, HostError> {
             .unwrap_or_else(|_| ProgressStyle::default_bar()),
     );
     let found = file.with_weights(|w| {
-        compare(w, &mut baseline, text, args.count, args.max_steps, |at| {
+        let search = SearchOptions {
+            max_steps: args.max_steps,
+            margin: args.margin,
+            ..SearchOptions::new(args.count)
+        };
+        compare(w, &mut baseline, text, args.count, search, |at| {
             bar.set_position(at as u64)
         })
     });

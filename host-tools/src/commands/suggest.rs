@@ -3,7 +3,7 @@
 use std::path::{Path, PathBuf};
 
 use inkling_core::session::{
-    SearchOptions, Session, Suggestions, WordFilter, WordList, DEFAULT_MAX_STEPS,
+    SearchOptions, Session, Suggestions, WordFilter, WordList, DEFAULT_MARGIN, DEFAULT_MAX_STEPS,
 };
 use inkling_core::{Model, Scratch};
 
@@ -33,6 +33,10 @@ pub struct SearchArgs {
     /// Engine steps the search may take.
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
+    /// How far below the best a word may score and still be followed, in nats (`inf`
+    /// follows every word that could still be offered).
+    #[arg(long, default_value_t = DEFAULT_MARGIN)]
+    pub margin: f32,
 }
 
 /// Arguments of `inkling suggest`.
@@ -105,6 +109,7 @@ pub fn with_session(
     let options = SearchOptions {
         width: args.count,
         max_steps: args.max_steps,
+        margin: args.margin,
         filter,
     };
 

@@ -9,6 +9,7 @@ use super::frequency_baseline::FrequencyBaseline;
 use super::model_predictor::ModelPredictor;
 use super::session_memory::SessionMemory;
 use super::simulation::{simulate, simulate_with, KeyCount};
+use inkling_core::session::SearchOptions;
 
 /// The framings reported: (selection key counted, automatic space). The first is the headline.
 pub const FRAMINGS: [(bool, bool); 3] = [(true, false), (true, true), (false, false)];
@@ -33,12 +34,12 @@ pub fn compare(
     baseline: &mut FrequencyBaseline,
     text: &[u8],
     count: usize,
-    max_steps: usize,
+    search: SearchOptions<'static>,
     mut progress: impl FnMut(usize),
 ) -> Result<Comparison, Error> {
     let mut memory = SessionMemory::new(weights.dims(), MAX_COUNT);
     let session = memory.session::<_, MAX_COUNT>(weights)?;
-    let mut predictor = ModelPredictor::new(session, max_steps);
+    let mut predictor = ModelPredictor::new(session, search);
     let model = simulate_with(text, count, &mut predictor, |offer| {
         progress(offer.typed.len())
     })?;
