@@ -2,7 +2,8 @@
 # Builds the firmware example, runs it on an emulated Cortex-M4F (QEMU mps2-an386) with
 # scripted typing piped in, and prints its figures: instructions per step (and its split into
 # matrix products, quantisation, scan exponentials), per keystroke (mean, 95th percentile and
-# largest, for typed bytes with `suggest` and for 12-key presses with `keys`) and per byte of
+# largest: for typed bytes to the first suggestions shown and to the end of the search, and
+# for 12-key presses with `keys`) and per byte of
 # prefill, flash and RAM from the linker's sections, and the stack high-water mark. Then it
 # runs kernel_count: the SMLAD kernel checked against the portable one, and its instructions
 # per multiply-accumulate.
@@ -14,8 +15,9 @@
 #   --input      the typed bytes (default: typing.txt next to this script); each line is one
 #                typing session, each byte a keystroke, 0x08 or 0x7f a backspace
 #   --out        keep the results there: suggestions.txt (the firmware's standard output),
-#                figures.txt (NAME VALUE per line), log.txt (its status log), keystrokes.txt
-#                and keypresses.txt (instructions of each, one a line)
+#                figures.txt (NAME VALUE per line), log.txt (its status log),
+#                keystrokes.txt, keystroke_totals.txt and keypresses.txt (instructions of
+#                each, one a line)
 #   --skip-unit  do not run the firmware crate's unit tests on the host first
 # environment: INKLING_IMAGE picks the model image built in (see firmware-example/README.md).
 set -euo pipefail
@@ -89,8 +91,9 @@ if [ "$status" -ne 0 ]; then
   exit 1
 fi
 
-sed -n 's/^figure //p' "$out/log.txt" | grep -v '^keystroke \|^keypress ' >"$out/figures.txt"
+sed -n 's/^figure //p' "$out/log.txt" | grep -v '^keystroke \|^keystroke_total \|^keypress ' >"$out/figures.txt"
 sed -n 's/^figure keystroke //p' "$out/log.txt" >"$out/keystrokes.txt"
+sed -n 's/^figure keystroke_total //p' "$out/log.txt" >"$out/keystroke_totals.txt"
 sed -n 's/^figure keypress //p' "$out/log.txt" >"$out/keypresses.txt"
 # Mean, 95th percentile (nearest rank) and largest of one instruction count a line.
 spread() {
@@ -101,6 +104,7 @@ spread() {
                  name, s / NR, name, v[r], name, v[NR] }'
 }
 spread keystroke "$out/keystrokes.txt" >>"$out/figures.txt"
+spread keystroke_total "$out/keystroke_totals.txt" >>"$out/figures.txt"
 spread keypress "$out/keypresses.txt" >>"$out/figures.txt"
 
 echo "== counting the matrix-vector kernel alone in QEMU (kernel_count)" >&2

@@ -68,11 +68,10 @@ impl Shape<'_> {
     }
 }
 
-/// Where the search starts: the slot holding the state after the text so far (never
-/// written), the logits after it and the bytes of the word typed so far.
+/// Where the search starts: the logits after the text so far and the bytes of the word typed
+/// so far (the slot of its state, never written, is given to [`Search::start`]).
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Root<'r> {
-    pub(crate) slot: usize,
     pub(crate) logits: &'r [f32],
     pub(crate) word: &'r [u8],
 }
@@ -94,99 +93,156 @@ pub(crate) struct Candidate {
     score: f32,
 }
 
-/// Runs the search with `options.width <= K` beams, their states in the `K` slots from
-/// `first_beam` on.
-pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
-    weights: &W,
-    scratch: &mut Scratch<'_>,
-    slots: &mut Slots<'_>,
-    root: Root<'_>,
-    first_beam: usize,
-    shape: Shape<'_>,
-    options: &SearchOptions<'_>,
-) -> Result<Suggestions<K>, Error> {
-    let width = options.width;
-    if width > K {
-        return Err(Error::CapacityExceeded {
-            buffer: "beams",
-            capacity: K,
-        });
-    }
-    let mut out = Suggestions::<K>::default();
-    let text = Word::from_slice(root.word).map_err(|_| Error::CapacityExceeded {
-        buffer: "word",
-        capacity: MAX_WORD_LEN,
-    })?;
-    if width == 0 {
-        return Ok(out);
-    }
-    let prefix = root.word.len();
-    let mut beams: heapless::Vec<Beam, K> = heapless::Vec::new();
-    let _ = beams.push(Beam {
-        text,
-        score: 0.0,
-        slot: root.slot,
-    });
-    let mut stopped: heapless::Vec<Beam, K> = heapless::Vec::new();
-    let mut first_round = true;
-    while !beams.is_empty() {
-        // Each beam is stepped and its extensions scored at once, so no beam keeps logits;
-        // a beam that can no longer finish among the results is dropped unstepped.
-        let mut parents: heapless::Vec<Beam, K> = heapless::Vec::new();
-        let mut candidates: heapless::Vec<Candidate, K> = heapless::Vec::new();
-        for beam in beams {
-            let logits = if first_round {
-                root.logits
-            } else if !is_open(&out.list, options, beam.score) {
-                continue;
-            } else if out.steps >= options.max_steps {
-                out.cut_short = true;
-                let _ = stopped.push(beam);
-                continue;
-            } else {
-                let byte = beam.text.last().copied().unwrap_or(0);
-                out.steps += 1;
-                slots.feed(beam.slot, weights, scratch, &[byte])?
-            };
-            let parent = parents.len();
-            let depth = beam.text.len().saturating_sub(prefix);
-            extend(
-                &beam,
-                parent,
-                logits,
-                depth,
-                shape,
-                options,
-                &mut out.list,
-                &mut candidates,
-            );
-            let _ = parents.push(beam);
-        }
-        first_round = false;
-        if out.cut_short {
-            break;
-        }
-        let best = candidates.first().map_or(f32::NEG_INFINITY, |c| c.score);
-        candidates
-            .retain(|c| c.score >= best - options.margin && is_open(&out.list, options, c.score));
-        beams = assign_slots(&parents, &candidates, slots, first_beam);
-    }
+/// A search in progress, kept between calls so that it can run in parts: the beams of the
+/// round not yet stepped, the parents and candidates of the round so far, the results and
+/// the beams the step budget stopped. Running it in parts gives exactly what running it at
+/// once does.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Search<const K: usize> {
+    pending: heapless::Vec<Beam, K>,
+    next: usize,
+    parents: heapless::Vec<Beam, K>,
+    candidates: heapless::Vec<Candidate, K>,
+    out: Suggestions<K>,
+    stopped: heapless::Vec<Beam, K>,
+    /// Whether the round of the root (which needs no step) is still to run.
+    at_root: bool,
+    /// Whether the search has more to do (false for a search never started).
+    running: bool,
+}
 
-    // Too few finished words: the best beams the budget stopped, flagged unfinished.
-    for beam in &stopped {
-        if out.list.len() >= width {
-            break;
-        }
-        let seen = out.list.iter().any(|s| s.text == beam.text);
-        if !seen && options.filter.offers(&beam.text) {
-            let _ = out.list.push(Suggestion {
-                text: beam.text.clone(),
-                logprob: beam.score,
-                finished: false,
+impl<const K: usize> Search<K> {
+    /// A search from the word typed so far, whose state is in `root_slot`, with
+    /// `options.width <= K` beams.
+    pub(crate) fn start(
+        word: &[u8],
+        root_slot: usize,
+        options: &SearchOptions<'_>,
+    ) -> Result<Self, Error> {
+        if options.width > K {
+            return Err(Error::CapacityExceeded {
+                buffer: "beams",
+                capacity: K,
             });
         }
+        let text = Word::from_slice(word).map_err(|_| Error::CapacityExceeded {
+            buffer: "word",
+            capacity: MAX_WORD_LEN,
+        })?;
+        let mut search = Search {
+            at_root: true,
+            running: options.width > 0,
+            ..Search::default()
+        };
+        let _ = search.pending.push(Beam {
+            text,
+            score: 0.0,
+            slot: root_slot,
+        });
+        Ok(search)
     }
-    Ok(out)
+
+    /// Whether the search has more to do.
+    pub(crate) fn is_running(&self) -> bool {
+        self.running
+    }
+
+    /// Runs at most `budget` more engine steps (the whole search stays within
+    /// `options.max_steps`), with the beams' states in the `K` slots from `first_beam` on.
+    /// The same `root`, `shape` and `options` must be given at every call.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn run<W: Weights + ?Sized>(
+        &mut self,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        slots: &mut Slots<'_>,
+        root: Root<'_>,
+        first_beam: usize,
+        shape: Shape<'_>,
+        options: &SearchOptions<'_>,
+        budget: usize,
+    ) -> Result<(), Error> {
+        let prefix = root.word.len();
+        let mut taken = 0usize;
+        while self.running {
+            // Each beam is stepped and its extensions scored at once, so no beam keeps
+            // logits; a beam that can no longer finish among the results is dropped unstepped.
+            while let Some(beam) = self.pending.get(self.next).cloned() {
+                let logits = if self.at_root {
+                    root.logits
+                } else if !is_open(&self.out.list, options, beam.score) {
+                    self.next += 1;
+                    continue;
+                } else if self.out.steps >= options.max_steps {
+                    self.out.cut_short = true;
+                    let _ = self.stopped.push(beam);
+                    self.next += 1;
+                    continue;
+                } else if taken >= budget {
+                    return Ok(());
+                } else {
+                    let byte = beam.text.last().copied().unwrap_or(0);
+                    self.out.steps += 1;
+                    taken += 1;
+                    slots.feed(beam.slot, weights, scratch, &[byte])?
+                };
+                let parent = self.parents.len();
+                let depth = beam.text.len().saturating_sub(prefix);
+                extend(
+                    &beam,
+                    parent,
+                    logits,
+                    depth,
+                    shape,
+                    options,
+                    &mut self.out.list,
+                    &mut self.candidates,
+                );
+                let _ = self.parents.push(beam);
+                self.next += 1;
+            }
+            self.at_root = false;
+            let best = self
+                .candidates
+                .first()
+                .map_or(f32::NEG_INFINITY, |c| c.score);
+            let list = &self.out.list;
+            self.candidates
+                .retain(|c| c.score >= best - options.margin && is_open(list, options, c.score));
+            if self.out.cut_short || self.candidates.is_empty() {
+                self.running = false;
+                break;
+            }
+            self.pending = assign_slots(&self.parents, &self.candidates, slots, first_beam);
+            self.next = 0;
+            self.parents.clear();
+            self.candidates.clear();
+        }
+        Ok(())
+    }
+
+    /// The results so far, best first: the finished words, then (if the search has not
+    /// ended, or its step budget stopped it) as many of the best beams not yet stepped as fit,
+    /// flagged unfinished.
+    pub(crate) fn result(&self, options: &SearchOptions<'_>) -> Suggestions<K> {
+        let mut out = self.out.clone();
+        out.cut_short |= self.running;
+        let waiting = self.pending.get(self.next..).unwrap_or(&[]);
+        for beam in self.stopped.iter().chain(waiting) {
+            if out.list.len() >= options.width {
+                break;
+            }
+            let seen = out.list.iter().any(|s| s.text == beam.text);
+            if !seen && options.filter.offers(&beam.text) {
+                let _ = out.list.push(Suggestion {
+                    text: beam.text.clone(),
+                    logprob: beam.score,
+                    finished: false,
+                });
+            }
+        }
+        out
+    }
 }
 
 /// Whether a word scored `score` so far may still finish among the results: it must beat

@@ -3,7 +3,7 @@
 use super::beam_search::{Beam, Candidate};
 use super::beam_slots::Slots;
 use super::suggestion::Suggestion;
-use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
+use super::word_buffer::WordBuffer;
 use crate::image::dims::Dims;
 use crate::image::format::VOCAB;
 
@@ -27,9 +27,9 @@ impl Dims {
     /// - the states buffer, `4 ·` [`session_floats`](Dims::session_floats)`(k)`;
     /// - the engine scratch, [`scratch_bytes`](Dims::scratch_bytes);
     /// - the fixed text buffers in the session: the history and the current word;
-    /// - the search's own lists on the stack while it runs: the beams of a round, its
-    ///   parents and the beams the budget stopped, the candidates and the results, `k` of
-    ///   each.
+    /// - the search kept in the session between calls (the beams of a round, its parents and
+    ///   the beams the budget stopped, the candidates and the results, `k` of each) and what
+    ///   a round builds on the stack (the next beams).
     ///
     /// ```
     /// use inkling_core::{Dims, image::example::TINY_DIMS};
@@ -45,16 +45,17 @@ impl Dims {
             + self.scratch_bytes()
             + history
             + core::mem::size_of::<WordBuffer>()
-            + search_stack_bytes(k)
+            + search_bytes(k)
+            + k * core::mem::size_of::<Beam>()
+            + 2 * k * core::mem::size_of::<bool>()
     }
 }
 
-/// Bytes of the lists a search keeps on the stack for `k` beams.
-const fn search_stack_bytes(k: usize) -> usize {
+/// Bytes of a search kept for `k` beams: its lists and their lengths and flags.
+const fn search_bytes(k: usize) -> usize {
     use core::mem::size_of;
     k * (3 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
-        + 2 * k * size_of::<bool>()
-        + MAX_WORD_LEN
+        + 8 * size_of::<usize>()
 }
 
 #[cfg(test)]
@@ -68,7 +69,9 @@ mod tests {
         // The session value: the text buffers counted in session_bytes, plus the model
         // handle and the slices into caller buffers (common practice, no source: a bound of
         // 64 machine words for handles and lengths).
-        let text = core::mem::size_of::<TextHistory<128>>() + core::mem::size_of::<WordBuffer>();
+        let text = core::mem::size_of::<TextHistory<128>>()
+            + core::mem::size_of::<WordBuffer>()
+            + search_bytes(3);
         let value = core::mem::size_of::<Session<'_, Model<'_>, 3, 128>>();
         let handles = 64 * core::mem::size_of::<usize>();
         assert!(value <= text + handles, "{value} > {text} + {handles}");

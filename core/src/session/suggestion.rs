@@ -16,9 +16,9 @@ pub const DEFAULT_MAX_STEPS: usize = 256;
 /// of keystroke savings (see the README).
 ///
 /// ```
-/// assert_eq!(inkling_core::session::DEFAULT_MARGIN, 3.0);
+/// assert_eq!(inkling_core::session::DEFAULT_MARGIN, 1.5);
 /// ```
-pub const DEFAULT_MARGIN: f32 = 3.0;
+pub const DEFAULT_MARGIN: f32 = 1.5;
 
 /// How a completion search runs.
 ///
