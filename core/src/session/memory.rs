@@ -55,7 +55,7 @@ impl Dims {
 const fn search_bytes(k: usize) -> usize {
     use core::mem::size_of;
     k * (3 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
-        + 8 * size_of::<usize>()
+        + size_of::<[usize; 8]>()
 }
 
 #[cfg(test)]
