@@ -29,7 +29,9 @@ impl Dims {
     /// - the fixed text buffers in the session: the history and the current word;
     /// - the search kept in the session between calls (the beams of a round, its parents and
     ///   the beams the budget stopped, the candidates and the results, `k` of each) and what
-    ///   a round builds on the stack (the next beams).
+    ///   a round builds on the stack (the next beams);
+    /// - [`SESSION_HANDLE_BYTES`] for the model handle and the slices and lengths in the
+    ///   session value.
     ///
     /// ```
     /// use inkling_core::{Dims, image::example::TINY_DIMS};
@@ -48,8 +50,18 @@ impl Dims {
             + search_bytes(k)
             + k * core::mem::size_of::<Beam>()
             + 2 * k * core::mem::size_of::<bool>()
+            + SESSION_HANDLE_BYTES
     }
 }
+
+/// Bytes [`Dims::session_bytes`] counts for what a session value holds besides its text
+/// buffers and search: the model handle, the slices into the caller's buffers and their
+/// lengths (64 machine words, a bound checked by a test).
+///
+/// ```
+/// assert!(inkling_core::session::memory::SESSION_HANDLE_BYTES >= 256);
+/// ```
+pub const SESSION_HANDLE_BYTES: usize = 64 * core::mem::size_of::<usize>();
 
 /// Bytes of a search kept for `k` beams: its lists and their lengths and flags.
 const fn search_bytes(k: usize) -> usize {
@@ -73,7 +85,7 @@ mod tests {
             + core::mem::size_of::<WordBuffer>()
             + search_bytes(3);
         let value = core::mem::size_of::<Session<'_, Model<'_>, 3, 128>>();
-        let handles = 64 * core::mem::size_of::<usize>();
+        let handles = SESSION_HANDLE_BYTES;
         assert!(value <= text + handles, "{value} > {text} + {handles}");
     }
 }

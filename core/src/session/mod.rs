@@ -38,7 +38,7 @@ pub mod beam_search;
 mod beam_slots;
 pub mod keypad;
 pub mod log_softmax;
-mod memory;
+pub mod memory;
 pub mod suggestion;
 pub mod text_history;
 pub mod typing_session;

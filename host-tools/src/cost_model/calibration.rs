@@ -16,8 +16,10 @@ pub struct Sample {
     pub dims: Dims,
     /// Instructions of one engine step.
     pub step_instructions: u64,
-    /// Instructions of one keystroke, mean.
+    /// Instructions of one keystroke (the edit and the whole search), mean.
     pub keystroke_instructions_mean: u64,
+    /// Instructions of one keystroke (the edit and the whole search), largest.
+    pub keystroke_instructions_max: u64,
     /// Engine steps of the search per keystroke, mean.
     pub search_steps_mean: u64,
     /// Stack high-water mark, bytes.
@@ -91,7 +93,8 @@ impl Calibration {
             samples.push(Sample {
                 dims,
                 step_instructions: field("step_instructions")?,
-                keystroke_instructions_mean: field("keystroke_instructions_mean")?,
+                keystroke_instructions_mean: field("keystroke_total_instructions_mean")?,
+                keystroke_instructions_max: field("keystroke_total_instructions_max")?,
                 search_steps_mean: field("keystroke_search_steps_mean")?,
                 stack_used_bytes: field("stack_used_bytes")? as usize,
                 image_bytes: field("image_bytes")? as usize,
