@@ -4,7 +4,9 @@
 # (`inkling convert`), builds the firmware with it and runs the first 8 lines of the scripted
 # typing (tests/firmware/typing.txt) in QEMU (run.sh; random weights make long searches, so
 # the whole script would take many minutes a shape), and writes one line of dimensions and
-# figures to tests/firmware/calibration.txt.
+# figures to tests/firmware/calibration.txt. Random weights make a search far longer than a
+# trained model's, so the same typing runs last on the bundled demo model (models/demo.inkl,
+# marked trained=1): `inkling budget` takes the search length per keystroke from it.
 #
 # usage: tests/firmware/calibrate.sh [--inkling PATH]
 #   --inkling  the inkling binary (default: target/release/inkling under CARGO_TARGET_DIR or
@@ -60,5 +62,22 @@ for shape in "${shapes[@]}"; do
   done <"$work/$name/figures.txt"
   echo "$fields" >>"$work/calibration.txt"
 done
+# The trained demo model: its dimensions from `inkling inspect`.
+demo="$root/models/demo.inkl"
+read -r d i n blocks < <("$inkling" inspect "$demo" --json | python3 -c \
+  'import json, sys; d = json.load(sys.stdin)["dims"]; print(d["d_model"], d["d_inner"], d["d_state"], d["blocks"])')
+echo "== demo (trained)" >&2
+INKLING_IMAGE="$demo" "$here/run.sh" --skip-unit --input "$work/typing.txt" \
+  --out "$work/demo" >/dev/null
+fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks trained=1"
+while read -r key value; do
+  case "$key" in
+    image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
+    step_scan_exp_instructions|keystroke_instructions_*|keystroke_total_instructions_*|keystroke_search_steps_mean|keypress_instructions_*|ram_total_bytes|\
+    prefill_instructions_per_byte|stack_used_bytes|flash_text_bytes|kernel_*_instructions_per_mac_milli)
+      fields="$fields $key=$value" ;;
+  esac
+done <"$work/demo/figures.txt"
+echo "$fields" >>"$work/calibration.txt"
 mv "$work/calibration.txt" "$out"
 echo "wrote $out" >&2

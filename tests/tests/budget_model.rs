@@ -75,6 +75,15 @@ fn a_latency_limit_keeps_the_shapes_whose_largest_keystroke_fits() {
     let model = CostModel::fit(&cal).expect("a fit");
     // The largest measured keystroke over the mean one: at least 1 by definition.
     assert!(model.max_to_mean >= 1.0);
+    // The search's length comes from the trained model(s) measured, not the random ones.
+    let trained: Vec<_> = cal.samples.iter().filter(|s| s.trained).collect();
+    assert!(!trained.is_empty(), "the calibration has a trained model");
+    let steps = trained
+        .iter()
+        .map(|s| s.search_steps_mean as f64)
+        .sum::<f64>()
+        / trained.len() as f64;
+    assert_eq!(model.search_steps, steps);
     for s in &cal.samples {
         assert!(
             s.keystroke_instructions_max as f64

@@ -28,6 +28,9 @@ pub struct Sample {
     pub image_bytes: usize,
     /// The firmware's text section (code, constants and the image), bytes.
     pub flash_text_bytes: usize,
+    /// Whether the weights were trained (`trained=1`), not drawn at random: a trained
+    /// model's search is far shorter.
+    pub trained: bool,
 }
 
 /// All measured shapes.
@@ -99,6 +102,7 @@ impl Calibration {
                 stack_used_bytes: field("stack_used_bytes")? as usize,
                 image_bytes: field("image_bytes")? as usize,
                 flash_text_bytes: field("flash_text_bytes")? as usize,
+                trained: field("trained").is_ok_and(|v| v == 1),
             });
         }
         Ok(Calibration {

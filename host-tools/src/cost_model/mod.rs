@@ -33,9 +33,11 @@ pub struct CostModel {
     pub step: [f64; 4],
     /// Instructions a search step adds to a step: constant and per state float (copies).
     pub search_overhead: [f64; 2],
-    /// Mean engine steps the search takes per keystroke with `beams` suggestions.
+    /// Mean engine steps the search takes per keystroke with `beams` suggestions (on the
+    /// trained models measured, if any).
     pub search_steps: f64,
-    /// The largest keystroke over the mean one, the largest ratio measured.
+    /// The largest keystroke over the mean one, the largest ratio measured (on the trained
+    /// models, if any).
     pub max_to_mean: f64,
     /// Suggestions the calibration ran with.
     pub beams: usize,
@@ -65,12 +67,24 @@ impl CostModel {
             })
             .collect();
         let over = least_squares(&over_rows, &over_y)?;
-        let n = s.len().max(1) as f64;
+        // The search's length and spread from the trained models when there are any: random
+        // weights spread the next byte's probability, and the search goes on far longer.
+        let trained: Vec<&Sample> = s.iter().filter(|x| x.trained).collect();
+        let typing: Vec<&Sample> = if trained.is_empty() {
+            s.iter().collect()
+        } else {
+            trained
+        };
+        let n = typing.len().max(1) as f64;
         Some(CostModel {
             step: [step[0], step[1], step[2], step[3]],
             search_overhead: [over[0], over[1]],
-            search_steps: s.iter().map(|x| x.search_steps_mean as f64).sum::<f64>() / n,
-            max_to_mean: s
+            search_steps: typing
+                .iter()
+                .map(|x| x.search_steps_mean as f64)
+                .sum::<f64>()
+                / n,
+            max_to_mean: typing
                 .iter()
                 .map(|x| {
                     x.keystroke_instructions_max as f64
