@@ -11,10 +11,12 @@ const DEFAULT_IMAGE: &str = "../models/demo.inkl";
 /// Suggestions per keystroke, and so beams of the session (passed on to main.rs).
 const SUGGESTIONS: usize = 3;
 
-/// Bytes one prefill pass takes at once (passed on to main.rs): the session's re-feed of a
-/// word after a backspace, and the prefill figure. Each pass reads every matrix once and runs
-/// pairs of bytes through the two-vector kernel; each byte of it costs `Dims::work_len() - 256`
-/// floats and `Dims::act_len()` i16 more of RAM (about 2.9 KB for the demo model).
+/// Bytes one prefill pass takes at once in the engine's prefill figure (passed on to
+/// main.rs). Each pass reads every matrix once and runs pairs of bytes through the two-vector
+/// kernel. The session keeps its states in 16-bit floats and so feeds one byte a pass: its
+/// scratch is the one-byte size, and the work space of the passes is borrowed from the
+/// session's buffer before the session takes it; only the activation scratch is sized for
+/// the passes (`Dims::act_len()` i16 per byte, 256 B per byte for the demo model).
 const PREFILL_CHUNK: usize = 4;
 
 fn main() {
@@ -59,16 +61,18 @@ fn write_buffer_sizes(image: &Path, out: &Path) {
     let text = format!(
         "/// Suggestions per keystroke (beams of the session).\n\
          const SUGGESTIONS: usize = {SUGGESTIONS};\n\
-         /// Bytes a prefill pass takes at once.\n\
-         const PREFILL_CHUNK: usize = {PREFILL_CHUNK};\n\
-         /// f32 elements of the session's states (live, snapshot, {SUGGESTIONS} beams) for the \
+         /// f32 elements of the session's buffer (live, snapshot, {SUGGESTIONS} beams) for the \
          built-in image.\n\
          const SESSION_FLOATS: usize = {};\n\
-         /// f32 elements of engine work space for the built-in image, prefill passes included.\n\
+         /// f32 elements of engine work space for the built-in image, one byte a pass.\n\
          const WORK_LEN: usize = {};\n\
-         /// i16 elements of activation scratch for the built-in image.\n\
+         /// f32 elements of engine work space for prefill passes of {PREFILL_CHUNK} bytes.\n\
+         const CHUNK_WORK_LEN: usize = {};\n\
+         /// i16 elements of activation scratch for the built-in image, prefill passes \
+         included.\n\
          const ACT_LEN: usize = {};\n",
         dims.session_floats(SUGGESTIONS),
+        dims.work_len(),
         dims.chunk_work_len(PREFILL_CHUNK),
         dims.chunk_act_len(PREFILL_CHUNK),
     );

@@ -4,8 +4,10 @@
 //! line is one keystroke (0x08 and 0x7F are backspace); after each, it writes one line: the
 //! text typed so far and the completions of the current word with their log-probabilities
 //! (see [`inkling_firmware_example::suggestion_line`]). The end of a line clears the text.
-//! When the input ends it measures the engine and reports the figures on the status log,
-//! then exits QEMU with status 0.
+//! Each keystroke's instructions go to the status log (`figure keystroke N`). When the
+//! input ends it types the same lines again as 12-key entry (each key press a
+//! `Session::keys` call, `figure keypress N`), measures the engine and reports the figures
+//! on the status log, then exits QEMU with status 0.
 //!
 //! The model image is built in from flash (`INKLING_IMAGE` at build time) and never copied;
 //! all RAM is in statics sized from the image's dimensions, plus the stack.
@@ -21,7 +23,7 @@ mod step_split;
 
 use cortex_m_rt::entry;
 use inkling_core::engine::recurrence::{prefill, step};
-use inkling_core::session::{SearchOptions, Session};
+use inkling_core::session::{is_boundary, KeyMap, SearchOptions, Session, MAX_WORD_LEN};
 use inkling_core::{Model, Scratch};
 use inkling_firmware_example::line_reader::LineReader;
 use inkling_firmware_example::suggestion_line::write_line;
@@ -35,7 +37,8 @@ use status_log::StatusLog;
 #[cfg(feature = "defmt")]
 use defmt_semihosting as _;
 
-// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: from the image's dimensions.
+// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, CHUNK_WORK_LEN, ACT_LEN: from the
+// image's dimensions.
 include!(concat!(env!("OUT_DIR"), "/buffer_sizes.rs"));
 
 /// Bytes aligned to 16, as the image's payloads expect for direct word loads.
@@ -57,25 +60,36 @@ const LINE_CAPACITY: usize = 128;
 const BENCH_TEXT: &[u8] = b"the keys on this panel offer words as you type them; \
     a small model runs here in fixed memory and never grows.\n";
 
+/// Instructions from a key press to its first suggestions: the search goes on one engine step
+/// at a time while the next step still fits, and the rest of it runs afterwards, as it would
+/// while no key is pressed (about 78 ms at 64 MHz, at one instruction a cycle).
+const LATENCY_LIMIT: u64 = 5_000_000;
+
 /// Backspace keys: ASCII BS and DEL.
 fn is_backspace(key: u8) -> bool {
     key == 0x08 || key == 0x7f
 }
 
-/// Keystroke figures: count, total and largest instructions, and search steps.
+/// The E.161 key of a lowercase ASCII letter.
+fn key_of(letter: u8) -> Option<u8> {
+    b"23456789".iter().copied().find(|&k| {
+        KeyMap::E161
+            .letters(k)
+            .is_some_and(|set| set.contains(letter))
+    })
+}
+
+/// Keystroke figures: count and search steps (the instructions of each keystroke go to the
+/// status log one by one, and `run.sh` takes their mean, 95th percentile and maximum).
 #[derive(Debug, Default)]
 struct KeystrokeCost {
     count: u64,
-    total: u64,
-    max: u64,
     search_steps: u64,
 }
 
 impl KeystrokeCost {
-    fn add(&mut self, instructions: u64, search_steps: usize) {
+    fn add(&mut self, search_steps: usize) {
         self.count += 1;
-        self.total += instructions;
-        self.max = self.max.max(instructions);
         self.search_steps += search_steps as u64;
     }
 }
@@ -116,6 +130,8 @@ fn main() -> ! {
     log.figure("state_bytes", dims.state_bytes() as u64);
     log.figure("session_buffer_bytes", 4 * SESSION_FLOATS as u64);
     log.figure("scratch_bytes", dims.scratch_bytes() as u64);
+    let statics = 4 * (SESSION_FLOATS + WORK_LEN) + 2 * ACT_LEN;
+    log.figure("ram_buffers_bytes", statics as u64);
 
     // SAFETY: the only references to these statics, taken once; no interrupt touches them.
     let (states, work, act) = unsafe {
@@ -132,35 +148,42 @@ fn main() -> ! {
     log.figure("step_matvec_instructions", split.matvec);
     log.figure("step_quantise_instructions", split.quantise);
     log.figure("step_scan_exp_instructions", split.scan_exp);
-    let mut scratch = match Scratch::new(&dims, work, act) {
-        Ok(scratch) => scratch,
-        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
-    };
-
-    // One engine step, alone: the first state of the session buffer serves before the
-    // session takes it over.
-    if let Some(state) = states.get_mut(..dims.state_len()) {
+    // A prefill of the bench text in passes of several bytes (as many as CHUNK_WORK_LEN holds), from a fresh state: the
+    // state and the passes' work space borrowed from the session buffer before the session
+    // takes it.
+    let state_len = dims.state_len().min(states.len());
+    let (state, rest) = states.split_at_mut(state_len);
+    if let Some(chunk_work) = rest.get_mut(..CHUNK_WORK_LEN) {
+        let mut chunked = match Scratch::new(&dims, chunk_work, &mut *act) {
+            Ok(chunked) => chunked,
+            Err(e) => fail(&mut log, "prefill scratch", &e, ExitCode::Internal),
+        };
         state.fill(0.0);
         let start = clock.ticks();
-        for &b in BENCH_TEXT {
-            if let Err(e) = step(&model, state, &mut scratch, b) {
-                fail(&mut log, "engine step", &e, ExitCode::Internal)
-            }
-        }
-        log.figure("step_instructions", since(start) / BENCH_TEXT.len() as u64);
-
-        // The same text again from a fresh state, in prefill passes of PREFILL_CHUNK bytes.
-        state.fill(0.0);
-        let start = clock.ticks();
-        if let Err(e) = prefill(&model, state, &mut scratch, BENCH_TEXT) {
+        if let Err(e) = prefill(&model, state, &mut chunked, BENCH_TEXT) {
             fail(&mut log, "engine prefill", &e, ExitCode::Internal)
         }
-        log.figure("prefill_chunk_bytes", PREFILL_CHUNK as u64);
+        log.figure("prefill_chunk_bytes", chunked.chunk_capacity() as u64);
         log.figure(
             "prefill_chunk_instructions_per_byte",
             since(start) / BENCH_TEXT.len() as u64,
         );
     }
+
+    let mut scratch = match Scratch::new(&dims, work, act) {
+        Ok(scratch) => scratch,
+        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
+    };
+    // One engine step, alone, on the same borrowed state.
+    state.fill(0.0);
+    let start = clock.ticks();
+    for &b in BENCH_TEXT {
+        if let Err(e) = step(&model, state, &mut scratch, b) {
+            fail(&mut log, "engine step", &e, ExitCode::Internal)
+        }
+    }
+    let step_instructions = since(start) / BENCH_TEXT.len() as u64;
+    log.figure("step_instructions", step_instructions);
 
     let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {
         Ok(session) => session,
@@ -182,6 +205,8 @@ fn main() -> ! {
     let mut lines = LineReader::<_, LINE_CAPACITY>::new(input);
     let mut typed = [0u8; LINE_CAPACITY];
     let mut cost = KeystrokeCost::default();
+    let mut presses = KeystrokeCost::default();
+    let mut step_cost = step_instructions;
     loop {
         let line = match lines.next_line() {
             Ok(Some(line)) => line,
@@ -214,26 +239,81 @@ fn main() -> ! {
                     fail(&mut log, "typing", &e, ExitCode::Internal)
                 }
             }
-            let found = match session.suggest(&options) {
+            // Suggestions within the latency limit, one step at a time while the next fits
+            // (a step's cost: the largest seen so far)...
+            let mut found = session.suggest_within(&options, 0);
+            while found.is_ok()
+                && session.is_refining()
+                && since(start) + step_cost <= LATENCY_LIMIT
+            {
+                let before = clock.ticks();
+                found = session.refine(&options, 1);
+                step_cost = step_cost.max(since(before));
+            }
+            log.figure("keystroke", since(start));
+            // ... then the rest of the search, as while no key is pressed.
+            while found.is_ok() && session.is_refining() {
+                found = session.refine(&options, usize::MAX);
+            }
+            log.figure("keystroke_total", since(start));
+            let found = match found {
                 Ok(found) => found,
                 Err(e) => fail(&mut log, "suggesting", &e, ExitCode::Internal),
             };
-            cost.add(since(start), found.steps);
+            cost.add(found.steps);
             let list = found.list.iter().map(|s| (s.text.as_slice(), s.logprob));
             if let Err(e) = write_line(&mut output, typed.get(..len).unwrap_or(&[]), list) {
                 fail(&mut log, "writing suggestions", &e, ExitCode::Io)
             }
         }
+        // The same line as 12-key entry: each word of lowercase letters typed as its E.161
+        // keys, one `keys` call per key press, then the word and what follows it pushed as
+        // typed (as if its suggestion was taken).
+        if let Err(e) = session.clear() {
+            fail(&mut log, "clearing the session", &e, ExitCode::Internal)
+        }
+        let text = typed.get(..len).unwrap_or(&[]);
+        for piece in text.split_inclusive(|&b| is_boundary(b)) {
+            let word_len = piece.iter().take_while(|&&b| !is_boundary(b)).count();
+            let word = piece.get(..word_len).unwrap_or(&[]);
+            let mut keys = [0u8; MAX_WORD_LEN];
+            let all_keys = word.len() <= MAX_WORD_LEN
+                && word
+                    .iter()
+                    .zip(keys.iter_mut())
+                    .all(|(&b, k)| key_of(b).map(|key| *k = key).is_some());
+            if all_keys {
+                for pressed in 1..=word.len() {
+                    let pressed = keys.get(..pressed).unwrap_or(&[]);
+                    let start = clock.ticks();
+                    let found = session.keys(pressed, &KeyMap::E161, &options);
+                    let instructions = since(start);
+                    match found {
+                        Ok(found) => presses.add(found.steps),
+                        Err(e) => fail(&mut log, "12-key entry", &e, ExitCode::Internal),
+                    }
+                    log.figure("keypress", instructions);
+                }
+            }
+            for &b in piece {
+                if let Err(e) = session.push(b) {
+                    if !matches!(e, inkling_core::Error::CapacityExceeded { .. }) {
+                        fail(&mut log, "typing", &e, ExitCode::Internal)
+                    }
+                }
+            }
+        }
     }
     log.figure("keystrokes", cost.count);
     log.figure(
-        "keystroke_instructions_mean",
-        cost.total / cost.count.max(1),
-    );
-    log.figure("keystroke_instructions_max", cost.max);
-    log.figure(
         "keystroke_search_steps_mean",
         cost.search_steps / cost.count.max(1),
+    );
+
+    log.figure("keypresses", presses.count);
+    log.figure(
+        "keypress_search_steps_mean",
+        presses.search_steps / presses.count.max(1),
     );
 
     // Prefill: text fed through the session without asking for suggestions.

@@ -1,8 +1,12 @@
 #!/usr/bin/env bash
 # Measures the firmware on models of several shapes, for the cost model of `inkling budget`:
 # for each shape it draws a random checkpoint (tests/reference/make_checkpoint.py), converts it
-# (`inkling convert`), builds the firmware with it and runs the scripted typing in QEMU
-# (run.sh), and writes one line of dimensions and figures to tests/firmware/calibration.txt.
+# (`inkling convert`), builds the firmware with it and runs the first 8 lines of the scripted
+# typing (tests/firmware/typing.txt) in QEMU (run.sh; random weights make long searches, so
+# the whole script would take many minutes a shape), and writes one line of dimensions and
+# figures to tests/firmware/calibration.txt. Random weights make a search far longer than a
+# trained model's, so the same typing runs last on the bundled demo model (models/demo.inkl,
+# marked trained=1): `inkling budget` takes the search length per keystroke from it.
 #
 # usage: tests/firmware/calibrate.sh [--inkling PATH]
 #   --inkling  the inkling binary (default: target/release/inkling under CARGO_TARGET_DIR or
@@ -24,6 +28,7 @@ done
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 out="$here/calibration.txt"
+head -n 8 "$here/typing.txt" >"$work/typing.txt"
 {
   echo "# Firmware figures per model shape (QEMU mps2-an386, -icount shift=0, profile release)."
   echo "# Written by tests/firmware/calibrate.sh; one shape a line, NAME=VALUE fields."
@@ -44,17 +49,35 @@ for shape in "${shapes[@]}"; do
   python3 "$root/tests/reference/make_checkpoint.py" --d "$d" --i "$i" --n "$n" \
     --blocks "$blocks" --seed 1 -o "$work/$name.safetensors" >/dev/null
   "$inkling" convert "$work/$name.safetensors" --out "$work/$name.inkl" >/dev/null
-  INKLING_IMAGE="$work/$name.inkl" "$here/run.sh" --skip-unit --out "$work/$name" >/dev/null
+  INKLING_IMAGE="$work/$name.inkl" "$here/run.sh" --skip-unit --input "$work/typing.txt" \
+    --out "$work/$name" >/dev/null
   fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks"
   while read -r key value; do
     case "$key" in
       image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
-      step_scan_exp_instructions|keystroke_instructions_mean|keystroke_search_steps_mean|\
+      step_scan_exp_instructions|keystroke_instructions_*|keystroke_total_instructions_*|keystroke_search_steps_mean|keypress_instructions_*|ram_total_bytes|\
       prefill_instructions_per_byte|stack_used_bytes|flash_text_bytes|kernel_*_instructions_per_mac_milli)
         fields="$fields $key=$value" ;;
     esac
   done <"$work/$name/figures.txt"
   echo "$fields" >>"$work/calibration.txt"
 done
+# The trained demo model: its dimensions from `inkling inspect`.
+demo="$root/models/demo.inkl"
+read -r d i n blocks < <("$inkling" inspect "$demo" --json | python3 -c \
+  'import json, sys; d = json.load(sys.stdin)["dims"]; print(d["d_model"], d["d_inner"], d["d_state"], d["blocks"])')
+echo "== demo (trained)" >&2
+INKLING_IMAGE="$demo" "$here/run.sh" --skip-unit --input "$work/typing.txt" \
+  --out "$work/demo" >/dev/null
+fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks trained=1"
+while read -r key value; do
+  case "$key" in
+    image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
+    step_scan_exp_instructions|keystroke_instructions_*|keystroke_total_instructions_*|keystroke_search_steps_mean|keypress_instructions_*|ram_total_bytes|\
+    prefill_instructions_per_byte|stack_used_bytes|flash_text_bytes|kernel_*_instructions_per_mac_milli)
+      fields="$fields $key=$value" ;;
+  esac
+done <"$work/demo/figures.txt"
+echo "$fields" >>"$work/calibration.txt"
 mv "$work/calibration.txt" "$out"
 echo "wrote $out" >&2

@@ -1,10 +1,12 @@
 #!/usr/bin/env bash
 # Builds the firmware example, runs it on an emulated Cortex-M4F (QEMU mps2-an386) with
 # scripted typing piped in, and prints its figures: instructions per step (and its split into
-# matrix products, quantisation, scan exponentials), per keystroke and per byte of prefill,
-# flash and RAM from the linker's sections, and the stack high-water mark. Then it runs
-# kernel_count: the SMLAD kernel checked against the portable one, and its instructions per
-# multiply-accumulate.
+# matrix products, quantisation, scan exponentials), per keystroke (mean, 95th percentile and
+# largest: for typed bytes to the first suggestions shown and to the end of the search, and
+# for 12-key presses with `keys`) and per byte of
+# prefill, flash and RAM from the linker's sections, and the stack high-water mark. Then it
+# runs kernel_count: the SMLAD kernel checked against the portable one, and its instructions
+# per multiply-accumulate.
 #
 # usage: tests/firmware/run.sh [--profile release|release-o3] [--input FILE] [--out DIR]
 #                              [--skip-unit]
@@ -13,7 +15,9 @@
 #   --input      the typed bytes (default: typing.txt next to this script); each line is one
 #                typing session, each byte a keystroke, 0x08 or 0x7f a backspace
 #   --out        keep the results there: suggestions.txt (the firmware's standard output),
-#                figures.txt (NAME VALUE per line), log.txt (its status log)
+#                figures.txt (NAME VALUE per line), log.txt (its status log),
+#                keystrokes.txt, keystroke_totals.txt and keypresses.txt (instructions of
+#                each, one a line)
 #   --skip-unit  do not run the firmware crate's unit tests on the host first
 # environment: INKLING_IMAGE picks the model image built in (see firmware-example/README.md).
 set -euo pipefail
@@ -77,7 +81,7 @@ elf="$CARGO_TARGET_DIR/$target/$profile/inkling-firmware-example"
 echo "== running it in QEMU" >&2
 # Typed input reaches the firmware through semihosting; QEMU itself must not read stdin.
 status=0
-timeout 120 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
+timeout 600 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
   -display none -serial none -monitor none \
   -semihosting-config enable=on,target=native -icount shift=0 \
   -kernel "$elf" <"$input" >"$out/suggestions.txt" 2>"$out/log.txt" || status=$?
@@ -87,7 +91,21 @@ if [ "$status" -ne 0 ]; then
   exit 1
 fi
 
-sed -n 's/^figure //p' "$out/log.txt" >"$out/figures.txt"
+sed -n 's/^figure //p' "$out/log.txt" | grep -v '^keystroke \|^keystroke_total \|^keypress ' >"$out/figures.txt"
+sed -n 's/^figure keystroke //p' "$out/log.txt" >"$out/keystrokes.txt"
+sed -n 's/^figure keystroke_total //p' "$out/log.txt" >"$out/keystroke_totals.txt"
+sed -n 's/^figure keypress //p' "$out/log.txt" >"$out/keypresses.txt"
+# Mean, 95th percentile (nearest rank) and largest of one instruction count a line.
+spread() {
+  sort -n "$2" | awk -v name="$1" '{ v[NR] = $1; s += $1 }
+    END { if (NR == 0) exit
+          r = int(0.95 * NR + 0.999999); if (r < 1) r = 1
+          printf "%s_instructions_mean %d\n%s_instructions_p95 %d\n%s_instructions_max %d\n",
+                 name, s / NR, name, v[r], name, v[NR] }'
+}
+spread keystroke "$out/keystrokes.txt" >>"$out/figures.txt"
+spread keystroke_total "$out/keystroke_totals.txt" >>"$out/figures.txt"
+spread keypress "$out/keypresses.txt" >>"$out/figures.txt"
 
 echo "== counting the matrix-vector kernel alone in QEMU (kernel_count)" >&2
 status=0
@@ -115,6 +133,8 @@ read -r text data bss _ < <("$size_tool" "$elf" | tail -n 1)
   echo "ram_bss_bytes $bss"
   echo "flash_bytes $((text + data))"
   echo "ram_static_bytes $((data + bss))"
+  stack=$(awk '$1 == "stack_used_bytes" { print $2 }' "$out/figures.txt")
+  echo "ram_total_bytes $((data + bss + stack))"
 } >>"$out/figures.txt"
 
 echo "== figures (profile $profile; instruction counts, not cycles)"

@@ -2,7 +2,7 @@
 //! of whole engine steps and keystrokes counted in QEMU (`tests/firmware/calibrate.sh`, exact
 //! under `-icount shift=0`), and image sizes written by `inkling convert` for the same shapes.
 
-use inkling_host::commands::budget::{fitting, parse_size};
+use inkling_host::commands::budget::{fitting, milliseconds, parse_size, within_latency};
 use inkling_host::cost_model::{calibration, image_bytes, Calibration, CostModel};
 
 fn measured() -> Calibration {
@@ -67,4 +67,45 @@ fn fitting_shapes_respect_the_budget() {
         .windows(2)
         .all(|w| w[0].dims.macs_per_step() >= w[1].dims.macs_per_step()));
     assert!(parse_size("12Q").is_err());
+}
+
+#[test]
+fn a_latency_limit_keeps_the_shapes_whose_largest_keystroke_fits() {
+    let cal = measured();
+    let model = CostModel::fit(&cal).expect("a fit");
+    // The largest measured keystroke over the mean one: at least 1 by definition.
+    assert!(model.max_to_mean >= 1.0);
+    // The search's length comes from the trained model(s) measured, not the random ones.
+    let trained: Vec<_> = cal.samples.iter().filter(|s| s.trained).collect();
+    assert!(!trained.is_empty(), "the calibration has a trained model");
+    let steps = trained
+        .iter()
+        .map(|s| s.search_steps_mean as f64)
+        .sum::<f64>()
+        / trained.len() as f64;
+    assert_eq!(model.search_steps, steps);
+    for s in &cal.samples {
+        assert!(
+            s.keystroke_instructions_max as f64
+                <= model.max_to_mean * s.keystroke_instructions_mean as f64 + 0.5,
+            "{:?}: the ratio covers the sample",
+            s.dims
+        );
+    }
+    let all = fitting(&model, 512 * 1024, 128 * 1024, 3);
+    // 1 ms is 64,000 instructions at 64 MHz (the definition of the clock rate).
+    assert_eq!(milliseconds(64_000.0, 64.0), 1.0);
+    let limit = 100.0;
+    let mut fast = all.clone();
+    within_latency(&mut fast, 64.0, limit);
+    assert!(
+        fast.len() < all.len(),
+        "some shape is slower than {limit} ms"
+    );
+    for c in &all {
+        let kept = fast.contains(c);
+        let max_ms = milliseconds(c.keystroke_max_instructions, 64.0);
+        assert_eq!(kept, max_ms <= limit, "{c:?}");
+        assert!(c.keystroke_max_instructions >= c.keystroke_instructions);
+    }
 }

@@ -13,4 +13,5 @@ pub mod kernels;
 pub mod matvec;
 pub mod nonlinear;
 pub mod recurrence;
+pub mod state_store;
 pub mod weights;

@@ -30,6 +30,7 @@ use core::cell::Cell;
 
 use super::buffers::{check_len, Scratch};
 use super::nonlinear::{exp2_nonpositive, rms_norm, silu, softplus};
+use super::state_store::StateStore;
 use super::weights::Weights;
 use crate::error::Error;
 use crate::image::dims::Dims;
@@ -100,9 +101,39 @@ pub fn prefill<'s, W: Weights + ?Sized>(
     scratch: &'s mut Scratch<'_>,
     bytes: &[u8],
 ) -> Result<&'s [f32], Error> {
+    prefill_stored(weights, state, scratch, bytes)
+}
+
+/// [`prefill`] on a state in any [`StateStore`]: in passes of [`Scratch::chunk_capacity`]
+/// bytes when the store [takes passes](StateStore::takes_passes), else one byte a pass.
+///
+/// ```
+/// use inkling_core::{Model, Scratch, engine::recurrence::prefill_stored};
+/// use inkling_core::engine::state_store::HalfState;
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = Model::from_bytes(&image)?;
+/// let d = *model.dims();
+/// let (mut work, mut act) = (vec![0.0; d.work_len()], vec![0; d.act_len()]);
+/// let mut scratch = Scratch::new(&d, &mut work, &mut act)?;
+/// let (mut bits, mut block) = (vec![0u16; d.state_len()], vec![0.0; d.block_state_len()]);
+/// let mut state = HalfState::new(&d, &mut bits, &mut block)?;
+/// let logits = prefill_stored(&model, &mut state, &mut scratch, b"hi")?;
+/// assert_eq!(logits.len(), 256);
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
+pub fn prefill_stored<'s, W: Weights + ?Sized, S: StateStore + ?Sized>(
+    weights: &W,
+    state: &mut S,
+    scratch: &'s mut Scratch<'_>,
+    bytes: &[u8],
+) -> Result<&'s [f32], Error> {
     let d = *weights.dims();
-    check_len("state", d.state_len(), state.len())?;
-    let chunk = scratch.chunk_capacity();
+    check_len("state", d.state_len(), state.state_len())?;
+    let chunk = if state.takes_passes() {
+        scratch.chunk_capacity()
+    } else {
+        1
+    };
     let passes = bytes.len().div_ceil(chunk);
     for (pass, part) in bytes.chunks(chunk).enumerate() {
         run_pass(weights, &d, state, scratch, part, pass + 1 == passes);
@@ -121,10 +152,10 @@ struct PassAreas<'a> {
 }
 
 /// One pass over `bytes` (at most the scratch's chunk capacity), block by block.
-fn run_pass<W: Weights + ?Sized>(
+fn run_pass<W: Weights + ?Sized, S: StateStore + ?Sized>(
     weights: &W,
     d: &Dims,
-    state: &mut [f32],
+    state: &mut S,
     scratch: &mut Scratch<'_>,
     bytes: &[u8],
     logits_wanted: bool,
@@ -153,7 +184,7 @@ fn run_pass<W: Weights + ?Sized>(
         weights.embed(b, u_t);
     }
     let per_block = i_n * (k - 1 + n);
-    for (l, block_state) in state.chunks_exact_mut(per_block).enumerate() {
+    for l in 0..d.blocks {
         // Every byte's output of a block feeds the next block; the last block's outputs feed
         // only the head, which wants the last byte's, or none.
         let output_from = match (l + 1 == d.blocks, logits_wanted) {
@@ -168,7 +199,9 @@ fn run_pass<W: Weights + ?Sized>(
             t,
             output_from,
         };
-        block.run(block_state, &mut a, act);
+        state.with_block(l, per_block, |block_state| {
+            block.run(block_state, &mut a, act)
+        });
     }
     if logits_wanted {
         let last = a.u.chunks_exact(dm).last().unwrap_or(&[]);

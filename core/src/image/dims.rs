@@ -50,6 +50,17 @@ impl Dims {
         self.blocks * self.d_inner * (self.d_conv - 1 + self.d_state)
     }
 
+    /// f32 elements of one block's state (`I · (K-1 + N)`): the work space a state kept in
+    /// 16-bit floats is widened into while a step runs.
+    ///
+    /// ```
+    /// use inkling_core::image::example::TINY_DIMS as D;
+    /// assert_eq!(D.block_state_len() * D.blocks, D.state_len());
+    /// ```
+    pub const fn block_state_len(&self) -> usize {
+        self.d_inner * (self.d_conv - 1 + self.d_state)
+    }
+
     /// Bytes of one engine state.
     ///
     /// ```

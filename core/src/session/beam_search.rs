@@ -1,27 +1,32 @@
 //! Completion by beam search over bytes, in `K` caller-owned beam states.
 //!
-//! From the state after the text typed so far, each round scores every one-byte extension
-//! of every beam (score = sum of natural-log probabilities, see [`LogSoftmax`]):
+//! From the state after the text typed so far, each round steps every beam once through the
+//! model (the root, the text itself, needs no step) and at once scores every one-byte
+//! extension of it (score = sum of natural-log probabilities, see [`LogSoftmax`]):
 //! - a word boundary byte finishes the beam's word: it goes, with the boundary's probability
 //!   included, to a separate list of the `width` best finished words (distinct texts; the
 //!   best boundary counts);
-//! - any other byte is a candidate; the `width` best candidates become the next beams and
-//!   each is stepped once through the model.
+//! - any other byte is a candidate; the `width` best candidates become the next beams.
 //!
 //! A word is offered only if it adds at least one byte to the word typed (the word as typed
 //! saves no keystroke) and ends on a whole UTF-8 character; a byte is a candidate only if it
 //! keeps the word well-formed UTF-8 (see `utf8_tail`), so no beam is spent on a byte
 //! sequence that could never be offered.
 //!
-//! A candidate no better than the worst of a full finished list is dropped: scores only fall
-//! as words grow, so it could never finish better. The search ends when no candidate is
-//! left, or when the step budget is spent (then the unstepped beams are still reported as
-//! unfinished). Words never exceed [`MAX_WORD_LEN`]: a beam at that length may only end.
+//! Scores only fall as words grow, so a word that can no longer enter the results is never
+//! stepped: a candidate (or a beam, checked again just before its step) must beat the worst
+//! of a full finished list. Besides, the search keeps only what is likely enough to be
+//! worth a step ([`SearchOptions::margin`]): a candidate more than the margin below the best
+//! candidate of its round, or below the best finished word, is dropped. The search ends when
+//! no candidate is left, or when the step budget is spent (then the beams not yet stepped are
+//! still reported as unfinished). Words never exceed [`MAX_WORD_LEN`]: a beam at that length
+//! may only end.
 //!
-//! Only `width` beam states are needed, not one per candidate: after choosing the best
-//! (beam, byte) pairs, the first child of each parent takes over its parent's slot and the
-//! other children copy the parent's state into slots freed by parents with no child
-//! chosen. Every copy is made before any step, since a step overwrites its slot.
+//! Only `width` beam states are needed, not one per candidate, and no logits are kept: after
+//! choosing the best (beam, byte) pairs, the first child of each parent takes over its
+//! parent's slot and the other children copy the parent's state into slots freed by parents
+//! with no child chosen (the root's state is never written: its children get copies). Every
+//! copy is made before any step of the round, since a step overwrites its slot.
 
 use super::beam_slots::Slots;
 use super::keypad::KeyMap;
@@ -39,9 +44,7 @@ use crate::error::Error;
 pub(crate) enum Shape<'k> {
     /// Any word bytes.
     Free,
-    /// One character of each key in turn, then the end of the word. A key stands for the
-    /// characters whose bytes are all in its set (a multi-byte character: its first byte
-    /// and its continuation bytes).
+    /// One letter of each key in turn, then the end of the word.
     Keys {
         /// The layout.
         map: &'k KeyMap,
@@ -84,16 +87,16 @@ fn characters_started(bytes: &[u8]) -> usize {
     bytes.iter().filter(|&&b| !is_continuation(b)).count()
 }
 
-/// Where the search starts: the state after the text so far, the logits after it and the
-/// bytes of the word typed so far.
+/// Where the search starts: the logits after the text so far and the bytes of the word typed
+/// so far (the slot of its state, never written, is given to [`Search::start`]).
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Root<'r> {
-    pub(crate) state: &'r [f32],
     pub(crate) logits: &'r [f32],
     pub(crate) word: &'r [u8],
 }
 
-/// A live beam: its word, its score and the slot holding its state and next-byte logits.
+/// A live beam: its word, its score and the slot holding its state. Every beam but the root
+/// holds its parent's state until it is stepped with its last byte.
 #[derive(Debug, Clone)]
 pub(crate) struct Beam {
     text: Word,
@@ -109,167 +112,258 @@ pub(crate) struct Candidate {
     score: f32,
 }
 
-/// Runs the search with `options.width <= K` beams held in `slots` (at least `K` of them).
-pub(crate) fn search<W: Weights + ?Sized, const K: usize>(
-    weights: &W,
-    scratch: &mut Scratch<'_>,
-    slots: &mut Slots<'_>,
-    root: Root<'_>,
-    shape: Shape<'_>,
-    options: &SearchOptions<'_>,
-) -> Result<Suggestions<K>, Error> {
-    let width = options.width;
-    if width > K {
-        return Err(Error::CapacityExceeded {
-            buffer: "beams",
-            capacity: K,
-        });
-    }
-    let mut out = Suggestions::<K>::default();
-    let text = Word::from_slice(root.word).map_err(|_| Error::CapacityExceeded {
-        buffer: "word",
-        capacity: MAX_WORD_LEN,
-    })?;
-    if width == 0 {
-        return Ok(out);
-    }
-    slots.load(0, root.state, root.logits);
-    let mut beams: heapless::Vec<Beam, K> = heapless::Vec::new();
-    let _ = beams.push(Beam {
-        text,
-        score: 0.0,
-        slot: 0,
-    });
-    let prefix = root.word.len();
+/// A search in progress, kept between calls so that it can run in parts: the beams of the
+/// round not yet stepped, the parents and candidates of the round so far, the results and
+/// the beams the step budget stopped. Running it in parts gives exactly what running it at
+/// once does.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Search<const K: usize> {
+    pending: heapless::Vec<Beam, K>,
+    next: usize,
+    parents: heapless::Vec<Beam, K>,
+    candidates: heapless::Vec<Candidate, K>,
+    out: Suggestions<K>,
+    stopped: heapless::Vec<Beam, K>,
+    /// Whether the round of the root (which needs no step) is still to run.
+    at_root: bool,
+    /// Whether the search has more to do (false for a search never started).
+    running: bool,
+}
 
-    while !beams.is_empty() {
-        let candidates = extend(&beams, slots, shape, options, prefix, &mut out.list);
-        beams = assign_slots(&beams, &candidates, slots);
-        for (beam, candidate) in beams.iter().zip(candidates.iter()) {
-            if out.steps >= options.max_steps {
-                out.cut_short = true;
-                break;
-            }
-            slots.step(beam.slot, weights, scratch, candidate.byte)?;
-            out.steps += 1;
-        }
-        if out.cut_short {
-            break;
-        }
-    }
-
-    // Too few finished words: the best beams the budget stopped, flagged unfinished.
-    for beam in &beams {
-        if out.list.len() >= width {
-            break;
-        }
-        let seen = out.list.iter().any(|s| s.text == beam.text);
-        if !seen && utf8_tail::ends_whole(&beam.text) && options.filter.offers(&beam.text) {
-            let _ = out.list.push(Suggestion {
-                text: beam.text.clone(),
-                logprob: beam.score,
-                finished: false,
+impl<const K: usize> Search<K> {
+    /// A search from the word typed so far, whose state is in `root_slot`, with
+    /// `options.width <= K` beams.
+    pub(crate) fn start(
+        word: &[u8],
+        root_slot: usize,
+        options: &SearchOptions<'_>,
+    ) -> Result<Self, Error> {
+        if options.width > K {
+            return Err(Error::CapacityExceeded {
+                buffer: "beams",
+                capacity: K,
             });
         }
+        let text = Word::from_slice(word).map_err(|_| Error::CapacityExceeded {
+            buffer: "word",
+            capacity: MAX_WORD_LEN,
+        })?;
+        let mut search = Search {
+            at_root: true,
+            running: options.width > 0,
+            ..Search::default()
+        };
+        let _ = search.pending.push(Beam {
+            text,
+            score: 0.0,
+            slot: root_slot,
+        });
+        Ok(search)
     }
-    Ok(out)
+
+    /// Whether the search has more to do.
+    pub(crate) fn is_running(&self) -> bool {
+        self.running
+    }
+
+    /// Runs at most `budget` more engine steps (the whole search stays within
+    /// `options.max_steps`), with the beams' states in the `K` slots from `first_beam` on.
+    /// The same `root`, `shape` and `options` must be given at every call.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn run<W: Weights + ?Sized>(
+        &mut self,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        slots: &mut Slots<'_>,
+        root: Root<'_>,
+        first_beam: usize,
+        shape: Shape<'_>,
+        options: &SearchOptions<'_>,
+        budget: usize,
+    ) -> Result<(), Error> {
+        let prefix = root.word.len();
+        let mut taken = 0usize;
+        while self.running {
+            // Each beam is stepped and its extensions scored at once, so no beam keeps
+            // logits; a beam that can no longer finish among the results is dropped unstepped.
+            while let Some(beam) = self.pending.get(self.next).cloned() {
+                let logits = if self.at_root {
+                    root.logits
+                } else if !is_open(&self.out.list, options, beam.score) {
+                    self.next += 1;
+                    continue;
+                } else if self.out.steps >= options.max_steps {
+                    self.out.cut_short = true;
+                    let _ = self.stopped.push(beam);
+                    self.next += 1;
+                    continue;
+                } else if taken >= budget {
+                    return Ok(());
+                } else {
+                    let byte = beam.text.last().copied().unwrap_or(0);
+                    self.out.steps += 1;
+                    taken += 1;
+                    slots.feed(beam.slot, weights, scratch, &[byte])?
+                };
+                let parent = self.parents.len();
+                // What the bytes so far allow, worked out once per beam rather than per byte.
+                let started = characters_started(beam.text.get(prefix..).unwrap_or(&[]));
+                extend(
+                    &beam,
+                    parent,
+                    logits,
+                    started,
+                    shape,
+                    options,
+                    &mut self.out.list,
+                    &mut self.candidates,
+                );
+                let _ = self.parents.push(beam);
+                self.next += 1;
+            }
+            self.at_root = false;
+            let best = self
+                .candidates
+                .first()
+                .map_or(f32::NEG_INFINITY, |c| c.score);
+            let list = &self.out.list;
+            self.candidates
+                .retain(|c| c.score >= best - options.margin && is_open(list, options, c.score));
+            if self.out.cut_short || self.candidates.is_empty() {
+                self.running = false;
+                break;
+            }
+            self.pending = assign_slots(&self.parents, &self.candidates, slots, first_beam);
+            self.next = 0;
+            self.parents.clear();
+            self.candidates.clear();
+        }
+        Ok(())
+    }
+
+    /// The results so far, best first: the finished words, then (if the search has not
+    /// ended, or its step budget stopped it) as many of the best beams not yet stepped as fit,
+    /// flagged unfinished.
+    pub(crate) fn result(&self, options: &SearchOptions<'_>) -> Suggestions<K> {
+        let mut out = self.out.clone();
+        out.cut_short |= self.running;
+        let waiting = self.pending.get(self.next..).unwrap_or(&[]);
+        for beam in self.stopped.iter().chain(waiting) {
+            if out.list.len() >= options.width {
+                break;
+            }
+            let seen = out.list.iter().any(|s| s.text == beam.text);
+            if !seen && utf8_tail::ends_whole(&beam.text) && options.filter.offers(&beam.text) {
+                let _ = out.list.push(Suggestion {
+                    text: beam.text.clone(),
+                    logprob: beam.score,
+                    finished: false,
+                });
+            }
+        }
+        out
+    }
 }
 
-/// One round: scores every one-byte extension of every beam, offers the finished ones to
-/// `finished` and returns the best `width` unfinished ones, best first.
+/// Whether a word scored `score` so far may still finish among the results: it must beat
+/// the worst of a full list and come within the margin of the best finished word (scores
+/// only fall as words grow).
+fn is_open(finished: &[Suggestion], options: &SearchOptions<'_>, score: f32) -> bool {
+    let best = finished.first().map_or(f32::NEG_INFINITY, |s| s.logprob);
+    beats_worst(finished, options.width, score, |s| s.logprob) && score >= best - options.margin
+}
+
+/// Scores every one-byte extension of `beam` (index `parent` of its round) from the logits
+/// after it: finished words go to `finished`, the best unfinished ones to `candidates`.
+#[allow(clippy::too_many_arguments)]
 fn extend<const K: usize>(
-    beams: &[Beam],
-    slots: &Slots<'_>,
+    beam: &Beam,
+    parent: usize,
+    logits: &[f32],
+    started: usize,
     shape: Shape<'_>,
     options: &SearchOptions<'_>,
-    prefix: usize,
     finished: &mut heapless::Vec<Suggestion, K>,
-) -> heapless::Vec<Candidate, K> {
+    candidates: &mut heapless::Vec<Candidate, K>,
+) {
     let width = options.width;
-    let mut candidates: heapless::Vec<Candidate, K> = heapless::Vec::new();
-    for (parent, beam) in beams.iter().enumerate() {
-        let logits = slots.logits(beam.slot);
-        let norm = LogSoftmax::of(logits);
-        // What the bytes so far allow, worked out once per beam rather than per byte.
-        let started = characters_started(beam.text.get(prefix..).unwrap_or(&[]));
-        let tail = Tail::of(&beam.text);
-        for (byte, &logit) in (0..=255u8).zip(logits) {
-            let score = beam.score + norm.log_prob(logit);
-            if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
-                continue;
+    let norm = LogSoftmax::of(logits);
+    let tail = Tail::of(&beam.text);
+    for (byte, &logit) in (0..=255u8).zip(logits) {
+        let score = beam.score + norm.log_prob(logit);
+        if !score.is_finite() || !beats_worst(finished, width, score, |s| s.logprob) {
+            continue;
+        }
+        if is_boundary(byte) {
+            if shape.may_end(started) && tail.is_whole() && options.filter.offers(&beam.text) {
+                offer_finished(finished, width, &beam.text, score);
             }
-            if is_boundary(byte) {
-                if shape.may_end(started) && tail.is_whole() && options.filter.offers(&beam.text) {
-                    offer_finished(finished, width, &beam.text, score);
-                }
-            } else if !beam.text.is_full()
-                && tail.admits(byte)
-                && shape.allows(started, byte)
-                && beats_worst(&candidates, width, score, |c| c.score)
-            {
-                let mut text = beam.text.clone();
-                let _ = text.push(byte);
-                if options.filter.may_extend(&text) {
-                    insert_ranked(
-                        &mut candidates,
-                        width,
-                        Candidate {
-                            parent,
-                            byte,
-                            score,
-                        },
-                        |c| c.score,
-                    );
-                }
+        } else if !beam.text.is_full()
+            && tail.admits(byte)
+            && shape.allows(started, byte)
+            && beats_worst(candidates, width, score, |c| c.score)
+        {
+            let mut text = beam.text.clone();
+            let _ = text.push(byte);
+            if options.filter.may_extend(&text) {
+                insert_ranked(
+                    candidates,
+                    width,
+                    Candidate {
+                        parent,
+                        byte,
+                        score,
+                    },
+                    |c| c.score,
+                );
             }
         }
     }
-    candidates
 }
 
-/// The beams of the next round, one per candidate (same order), with their slots assigned
-/// and parent states copied where a parent has several children.
+/// The beams of the next round, one per candidate (same order), each in a slot holding its
+/// parent's state: the first child of a beam takes over its parent's slot (the root's is
+/// never written: its children get copies), the others copies in slots no child inherits.
 fn assign_slots<const K: usize>(
-    beams: &[Beam],
+    parents: &[Beam],
     candidates: &[Candidate],
     slots: &mut Slots<'_>,
+    first_beam: usize,
 ) -> heapless::Vec<Beam, K> {
-    let mut has_child = [false; K];
-    for c in candidates {
-        if let Some(flag) = has_child.get_mut(c.parent) {
-            *flag = true;
-        }
-    }
-    // A slot is busy if its beam has a child (that child inherits it).
+    let beam_slot = |slot: usize| slot.checked_sub(first_beam).filter(|&i| i < K);
     let mut busy = [false; K];
-    for (beam, _) in beams.iter().zip(has_child).filter(|(_, child)| *child) {
-        if let Some(flag) = busy.get_mut(beam.slot) {
+    for c in candidates {
+        if let Some(flag) = parents
+            .get(c.parent)
+            .and_then(|p| beam_slot(p.slot))
+            .and_then(|i| busy.get_mut(i))
+        {
             *flag = true;
         }
     }
     let mut inherited = [false; K];
     let mut next: heapless::Vec<Beam, K> = heapless::Vec::new();
     for c in candidates {
-        let Some(parent) = beams.get(c.parent) else {
+        let Some(parent) = parents.get(c.parent) else {
             continue;
         };
         let first_child = inherited
             .get_mut(c.parent)
             .map(|flag| !core::mem::replace(flag, true))
             .unwrap_or(false);
-        let slot = if first_child {
+        let slot = if first_child && beam_slot(parent.slot).is_some() {
             parent.slot
         } else {
-            // There are at most K children and each parent with a child keeps one slot, so
-            // a free slot always exists.
+            // At most K children, and each parent in a beam slot keeps one for its first
+            // child: a free slot always exists.
             let Some(free) = busy.iter().position(|b| !b) else {
                 continue;
             };
             if let Some(flag) = busy.get_mut(free) {
                 *flag = true;
             }
-            slots.copy_state(parent.slot, free);
-            free
+            slots.copy_state(parent.slot, first_beam + free);
+            first_beam + free
         };
         let mut text = parent.text.clone();
         let _ = text.push(c.byte);
@@ -340,7 +434,8 @@ mod tests {
 
     /// The log-probability of `text` after `context`, by the chain rule
     /// `log p(x_1..x_n) = Σ log p(x_i | x_<i)`, with log-softmax evaluated in f64 from its
-    /// definition on a fresh state; a finished word adds its most likely boundary byte.
+    /// definition on a fresh state kept as the session keeps it (rounded to binary16 after
+    /// every byte); a finished word adds its most likely boundary byte.
     fn chain_rule_logprob(model: &Model<'_>, context: &[u8], s: &Suggestion) -> f64 {
         let dims = *model.dims();
         let mut state = [0.0f32; 512];
@@ -350,6 +445,9 @@ mod tests {
         let mut logits = [0.0f32; 256];
         let mut feed = |b: u8, logits: &mut [f32; 256]| {
             logits.copy_from_slice(step(model, state, &mut scratch, b).unwrap());
+            for v in state.iter_mut() {
+                *v = half::f16::from_f32(*v).to_f32();
+            }
         };
         feed(PRIME_BYTE, &mut logits);
         let word_start = context

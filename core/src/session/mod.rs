@@ -38,7 +38,7 @@ pub mod beam_search;
 mod beam_slots;
 pub mod keypad;
 pub mod log_softmax;
-mod memory;
+pub mod memory;
 pub mod suggestion;
 pub mod text_history;
 pub mod typing_session;
@@ -49,7 +49,7 @@ pub mod word_list;
 
 pub use keypad::{ByteSet, KeyMap};
 pub use log_softmax::LogSoftmax;
-pub use suggestion::{SearchOptions, Suggestion, Suggestions, DEFAULT_MAX_STEPS};
+pub use suggestion::{SearchOptions, Suggestion, Suggestions, DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
 pub use text_history::{TextHistory, DEFAULT_HISTORY};
 pub use typing_session::Session;
 pub use word_boundary::{is_boundary, PRIME_BYTE};

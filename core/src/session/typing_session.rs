@@ -1,6 +1,6 @@
 //! [`Session`]: text typed byte by byte, with backspace, and completions of it.
 
-use super::beam_search::{search, Root, Shape};
+use super::beam_search::{Root, Search, Shape};
 use super::beam_slots::Slots;
 use super::keypad::KeyMap;
 use super::suggestion::{SearchOptions, Suggestions};
@@ -10,6 +10,17 @@ use super::word_buffer::{WordBuffer, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
 use crate::engine::weights::Weights;
 use crate::error::Error;
+use crate::image::format::VOCAB;
+
+/// The slot of the live state, the state after all the text.
+const LIVE: usize = 0;
+/// The slot of the snapshot, the state after the last word boundary.
+const SNAPSHOT: usize = 1;
+/// The first of the `K` beam slots.
+const FIRST_BEAM: usize = 2;
+/// The most bytes typed after the snapshot before a boundary byte takes a new one: a
+/// backspace then re-feeds at most this many bytes and a word.
+const MAX_SINCE_SNAPSHOT: usize = 2 * MAX_WORD_LEN;
 
 /// A typing session: the model's state over the text typed so far, the word being typed and
 /// the last `H` bytes, with `K` beam states for completion searches.
@@ -17,21 +28,26 @@ use crate::error::Error;
 /// - **Start.** A new session (and [`clear`](Session::clear)) feeds [`PRIME_BYTE`] (`\n`)
 ///   once, so the first word is predicted as the start of a line (the training text has one
 ///   message per line).
-/// - **Words.** [`push`](Session::push) feeds one byte. A [word boundary](super::is_boundary)
-///   ends the current word and the state after it is kept as a snapshot. A word holds at
-///   most [`MAX_WORD_LEN`] bytes; a further word byte is refused (see there).
-/// - **Backspace inside a word** restores the snapshot and re-feeds the rest of the word:
-///   at most `MAX_WORD_LEN - 1` steps, as one prefill (so in passes of
-///   [`Scratch::chunk_capacity`] bytes: give the session a chunk-sized scratch and each
-///   weight row is read once per pass, not once per byte).
-/// - **Backspace across a boundary** (the word is empty, so the byte removed is a boundary)
+/// - **Words.** [`push`](Session::push) feeds one byte (one step). A [word
+///   boundary](super::is_boundary) ends the current word; the state where the next word
+///   starts is kept as a snapshot when its first byte comes (so until then the snapshot
+///   stays where the word before the boundary started, unless more than
+///   `2 · MAX_WORD_LEN` bytes follow it). A word holds at most [`MAX_WORD_LEN`] bytes; a
+///   further word byte is refused (see there).
+/// - **Backspace** restores the snapshot and re-feeds the bytes after it, one step each:
+///   the rest of the current word, or, right after a boundary, the word before it and the
+///   boundary bytes (so correcting the last word after its space costs as much as inside
+///   it).
+/// - **Backspace past the snapshot** (a boundary deleted after the word that followed it)
 ///   recovers from the history of the last `H` bytes: the state is reset, primed and the
 ///   history re-fed, at most `H + 1` steps. Text older than the history is forgotten: after
 ///   such a backspace the model sees only the last `H` bytes (a session shorter than `H`
 ///   bytes loses nothing, and gives exactly the state of typing the shorter text afresh).
 /// - **Memory.** The caller gives one f32 buffer of
-///   [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements (the live state and
-///   the snapshot, each with its logits, and `K` beam states with theirs) and a [`Scratch`];
+///   [`Dims::session_floats`](crate::Dims::session_floats)`(K)` elements (the logits after
+///   the live state and after the snapshot, and `K + 2` states: the live state, the snapshot
+///   and `K` beams, each kept in 16-bit floats, see
+///   [`state_store`](crate::engine::state_store)) and a [`Scratch`];
 ///   the session itself holds the fixed word and history buffers. See
 ///   [`Dims::session_bytes`](crate::Dims::session_bytes). Nothing grows with the text.
 ///
@@ -58,14 +74,18 @@ use crate::error::Error;
 pub struct Session<'b, W: Weights, const K: usize, const H: usize = DEFAULT_HISTORY> {
     weights: W,
     scratch: Scratch<'b>,
-    /// The state after all the text, and the logits after it.
-    live: Slots<'b>,
-    /// The state after the last word boundary, and the logits after it.
-    boundary: Slots<'b>,
-    /// `K` beam states for searches.
-    beams: Slots<'b>,
+    /// The live state, the snapshot at the last word boundary and `K` beam states.
+    states: Slots<'b>,
+    /// The logits after the live state.
+    live_logits: &'b mut [f32],
+    /// The logits after the snapshot.
+    snapshot_logits: &'b mut [f32],
     word: WordBuffer,
     history: TextHistory<H>,
+    /// Bytes of the text after the snapshot (all of them in the history).
+    since_snapshot: usize,
+    /// The last completion search, kept so that [`refine`](Session::refine) can go on with it.
+    search: Search<K>,
 }
 
 impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
@@ -97,18 +117,19 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 actual: floats.len(),
             });
         }
-        let s = dims.state_len();
-        let (live, rest) = Slots::carve(floats, s, 1)?;
-        let (boundary, rest) = Slots::carve(rest, s, 1)?;
-        let (beams, _) = Slots::carve(rest, s, K)?;
+        let (live_logits, rest) = floats.split_at_mut(VOCAB);
+        let (snapshot_logits, rest) = rest.split_at_mut(VOCAB);
+        let (states, _) = Slots::carve(rest, &dims, FIRST_BEAM + K)?;
         let mut session = Session {
             weights,
             scratch,
-            live,
-            boundary,
-            beams,
+            states,
+            live_logits,
+            snapshot_logits,
             word: WordBuffer::new(),
             history: TextHistory::new(),
+            since_snapshot: 0,
+            search: Search::default(),
         };
         session.clear()?;
         Ok(session)
@@ -131,6 +152,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn clear(&mut self) -> Result<(), Error> {
+        self.search = Search::default();
         self.word.clear();
         self.history.clear();
         self.prime()?;
@@ -158,10 +180,21 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn push(&mut self, byte: u8) -> Result<(), Error> {
+        self.advance(byte)?;
+        self.history.push(byte);
+        Ok(())
+    }
+
+    /// [`push`](Session::push) without the history.
+    fn advance(&mut self, byte: u8) -> Result<(), Error> {
+        self.search = Search::default();
         if is_boundary(byte) {
-            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            self.feed_live(&[byte])?;
             self.word.clear();
-            self.snapshot();
+            self.since_snapshot += 1;
+            if self.since_snapshot > MAX_SINCE_SNAPSHOT {
+                self.snapshot();
+            }
         } else {
             if self.word.is_full() {
                 return Err(Error::CapacityExceeded {
@@ -169,10 +202,14 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                     capacity: MAX_WORD_LEN,
                 });
             }
-            self.live.step(0, &self.weights, &mut self.scratch, byte)?;
+            if self.word.as_bytes().is_empty() && self.since_snapshot > 0 {
+                // A word starts here.
+                self.snapshot();
+            }
+            self.feed_live(&[byte])?;
             self.word.push(byte)?;
+            self.since_snapshot += 1;
         }
-        self.history.push(byte);
         Ok(())
     }
 
@@ -216,48 +253,69 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         if self.history.pop().is_none() {
             return Ok(false);
         }
-        if self.word.pop().is_some() {
-            // Inside the word: back to the snapshot, then the rest of the word again.
-            let (state, logits) = self.boundary.parts(0);
-            self.live.load(0, state, logits);
-            self.live
-                .feed(0, &self.weights, &mut self.scratch, self.word.as_bytes())?;
-        } else {
-            self.recover()?;
+        self.search = Search::default();
+        if self.since_snapshot == 0 || self.since_snapshot > self.history.len() + 1 {
+            return self.recover().map(|()| true);
+        }
+        // Back to the snapshot, then the bytes after it again.
+        self.since_snapshot -= 1;
+        let mut tail = [0u8; MAX_SINCE_SNAPSHOT + MAX_WORD_LEN];
+        let skip = self.history.len() - self.since_snapshot;
+        for (t, b) in tail.iter_mut().zip(self.history.iter().skip(skip)) {
+            *t = b;
+        }
+        let tail = tail.get(..self.since_snapshot).unwrap_or(&[]);
+        self.states.copy_state(SNAPSHOT, LIVE);
+        self.live_logits.copy_from_slice(self.snapshot_logits);
+        self.feed_live(tail)?;
+        self.word.clear();
+        let start = tail
+            .iter()
+            .rposition(|&b| is_boundary(b))
+            .map_or(0, |p| p + 1);
+        for &b in tail.get(start..).unwrap_or(&[]) {
+            self.word.push(b)?;
         }
         Ok(true)
     }
 
-    /// Rebuilds the state, snapshot and word from the history alone.
+    /// Rebuilds the state, snapshot and word from the history alone, as typing it afresh
+    /// does.
     fn recover(&mut self) -> Result<(), Error> {
         self.prime()?;
         self.snapshot();
         self.word.clear();
-        for b in self.history.iter() {
-            self.live.step(0, &self.weights, &mut self.scratch, b)?;
-            if is_boundary(b) {
-                self.word.clear();
-                let (state, logits) = self.live.parts(0);
-                self.boundary.load(0, state, logits);
-            } else {
-                // At most MAX_WORD_LEN bytes follow the last boundary, as pushes ensured.
-                self.word.push(b)?;
-            }
+        let history = self.history.clone();
+        for b in history.iter() {
+            // Every byte of the history was accepted when it was pushed.
+            self.advance(b)?;
         }
         Ok(())
     }
 
     /// Zero state, then [`PRIME_BYTE`].
     fn prime(&mut self) -> Result<(), Error> {
-        self.live.reset(0);
-        self.live
-            .step(0, &self.weights, &mut self.scratch, PRIME_BYTE)
+        self.states.reset(LIVE);
+        self.feed_live(&[PRIME_BYTE])
     }
 
-    /// Keeps the live state as the boundary snapshot.
+    /// Runs `bytes` through the model on the live state and keeps the logits after them.
+    fn feed_live(&mut self, bytes: &[u8]) -> Result<(), Error> {
+        if bytes.is_empty() {
+            return Ok(());
+        }
+        let logits = self
+            .states
+            .feed(LIVE, &self.weights, &mut self.scratch, bytes)?;
+        self.live_logits.copy_from_slice(logits);
+        Ok(())
+    }
+
+    /// Keeps the live state as the snapshot.
     fn snapshot(&mut self) {
-        let (state, logits) = self.live.parts(0);
-        self.boundary.load(0, state, logits);
+        self.states.copy_state(LIVE, SNAPSHOT);
+        self.snapshot_logits.copy_from_slice(self.live_logits);
+        self.since_snapshot = 0;
     }
 
     /// The `options.width` most likely completions of the current word (or, right after a
@@ -279,7 +337,103 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn suggest(&mut self, options: &SearchOptions<'_>) -> Result<Suggestions<K>, Error> {
-        self.run(Shape::Free, options)
+        self.suggest_within(options, usize::MAX)
+    }
+
+    /// [`suggest`](Session::suggest) in parts: starts a new search and runs at most `steps`
+    /// engine steps of it, then returns the best so far (with
+    /// [`cut_short`](Suggestions::cut_short) set while it is not done: the words found, then
+    /// the best beams not yet followed, unfinished). [`refine`](Session::refine) goes on with
+    /// it. Firmware can so show suggestions within a latency limit and improve them while
+    /// no key is pressed; the final result is exactly that of `suggest`.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 3>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"the ")?;
+    /// let options = SearchOptions::new(3);
+    /// let whole = session.suggest(&options)?;
+    /// let mut found = session.suggest_within(&options, 2)?;
+    /// assert!(found.steps <= 2);
+    /// while session.is_refining() {
+    ///     found = session.refine(&options, 2)?;
+    /// }
+    /// assert_eq!(found, whole);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn suggest_within(
+        &mut self,
+        options: &SearchOptions<'_>,
+        steps: usize,
+    ) -> Result<Suggestions<K>, Error> {
+        self.search = Search::start(self.word.as_bytes(), LIVE, options)?;
+        self.refine(options, steps)
+    }
+
+    /// Runs at most `steps` more engine steps of the search that
+    /// [`suggest_within`](Session::suggest_within) started (give the same `options`), and
+    /// returns the best so far. After an edit (or a [`keys`](Session::keys) search) there is
+    /// none to go on with: it gives the last result again.
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 3>::new(model, &mut floats, scratch)?;
+    /// session.push_bytes(b"wo")?;
+    /// let first = session.suggest_within(&SearchOptions::new(3), 0)?;
+    /// assert!(first.cut_short && first.steps == 0);
+    /// let more = session.refine(&SearchOptions::new(3), 1)?;
+    /// assert!(more.steps <= 1);
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn refine(
+        &mut self,
+        options: &SearchOptions<'_>,
+        steps: usize,
+    ) -> Result<Suggestions<K>, Error> {
+        let root = Root {
+            logits: self.live_logits,
+            word: self.word.as_bytes(),
+        };
+        self.search.run(
+            &self.weights,
+            &mut self.scratch,
+            &mut self.states,
+            root,
+            FIRST_BEAM,
+            Shape::Free,
+            options,
+            steps,
+        )?;
+        Ok(self.search.result(options))
+    }
+
+    /// Whether the last search started by [`suggest_within`](Session::suggest_within) has
+    /// more to do ([`refine`](Session::refine) goes on with it).
+    ///
+    /// ```
+    /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
+    /// # let image = inkling_core::image::example::tiny_image();
+    /// # let model = Model::from_bytes(&image)?;
+    /// # let mut floats = [0.0f32; 8192];
+    /// # let (mut work, mut act) = ([0.0f32; 512], [0i16; 64]);
+    /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
+    /// let mut session = Session::<_, 3>::new(model, &mut floats, scratch)?;
+    /// session.suggest(&SearchOptions::new(3))?;
+    /// assert!(!session.is_refining());
+    /// # Ok::<(), inkling_core::Error>(())
+    /// ```
+    pub fn is_refining(&self) -> bool {
+        self.search.is_running()
     }
 
     /// The `options.width` most likely words that continue the current word with one letter
@@ -317,28 +471,25 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 capacity: MAX_WORD_LEN,
             });
         }
-        self.run(Shape::Keys { map, keys }, options)
-    }
-
-    fn run(
-        &mut self,
-        shape: Shape<'_>,
-        options: &SearchOptions<'_>,
-    ) -> Result<Suggestions<K>, Error> {
-        let (state, logits) = self.live.parts(0);
+        let mut search = Search::<K>::start(self.word.as_bytes(), LIVE, options)?;
         let root = Root {
-            state,
-            logits,
+            logits: self.live_logits,
             word: self.word.as_bytes(),
         };
-        search(
+        let shape = Shape::Keys { map, keys };
+        let run = search.run(
             &self.weights,
             &mut self.scratch,
-            &mut self.beams,
+            &mut self.states,
             root,
+            FIRST_BEAM,
             shape,
             options,
-        )
+            usize::MAX,
+        );
+        // The beam slots now hold this search's states.
+        self.search = Search::default();
+        run.map(|()| search.result(options))
     }
 
     /// The word typed since the last boundary.
@@ -391,7 +542,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn logits(&self) -> &[f32] {
-        self.live.logits(0)
+        self.live_logits
     }
 
     /// The model.
@@ -411,8 +562,8 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         &self.weights
     }
 
-    /// f32 elements [`save`](Session::save) writes: the live state and the boundary
-    /// snapshot, each with the logits after it.
+    /// f32 elements [`save`](Session::save) writes: the live state and the snapshot, each
+    /// with the logits after it, and the number of bytes typed after the snapshot.
     ///
     /// ```
     /// # use inkling_core::{Model, Scratch, session::Session};
@@ -423,14 +574,15 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// # let scratch = Scratch::new(model.dims(), &mut work, &mut act)?;
     /// let session = Session::<_, 2>::new(model, &mut floats, scratch)?;
     /// let state_len = session.weights().dims().state_len();
-    /// assert_eq!(session.saved_len(), 2 * (state_len + 256));
+    /// assert_eq!(session.saved_len(), 2 * (state_len + 256) + 1);
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
     pub fn saved_len(&self) -> usize {
-        2 * Slots::stride(self.weights.dims().state_len())
+        2 * (self.weights.dims().state_len() + VOCAB) + 1
     }
 
-    /// Copies the live state and the boundary snapshot (with their logits) into the first
+    /// Copies the live state and the snapshot (with their logits, and the bytes typed after
+    /// the snapshot) into the first
     /// [`saved_len`](Session::saved_len) elements of `out`. With [`word`](Session::word)
     /// and [`history`](Session::history) this is everything a session over the same model
     /// needs to continue exactly where this one is (see [`restore`](Session::restore)).
@@ -457,14 +609,20 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
             needed,
             actual,
         })?;
-        for (slots, dst) in [&self.live, &self.boundary]
-            .into_iter()
-            .zip(out.chunks_exact_mut(stride))
+        let state_len = self.weights.dims().state_len();
+        for ((slot, logits), dst) in [
+            (LIVE, &*self.live_logits),
+            (SNAPSHOT, &*self.snapshot_logits),
+        ]
+        .into_iter()
+        .zip(out.chunks_exact_mut(stride))
         {
-            let (state, logits) = slots.parts(0);
-            for (d, &v) in dst.iter_mut().zip(state.iter().chain(logits)) {
-                *d = v;
-            }
+            let (state, after) = dst.split_at_mut(state_len.min(dst.len()));
+            self.states.read(slot, state);
+            after.copy_from_slice(logits);
+        }
+        if let Some(last) = out.last_mut() {
+            *last = self.since_snapshot as f32;
         }
         Ok(())
     }
@@ -472,8 +630,9 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// Continues from a state saved by [`save`](Session::save) of a session over the same
     /// model, with that session's [`word`](Session::word) and [`history`](Session::history):
     /// afterwards this session behaves bit for bit as that one did. A `saved` shorter than
-    /// [`saved_len`](Session::saved_len) or a word longer than [`MAX_WORD_LEN`] is refused
-    /// and changes nothing.
+    /// [`saved_len`](Session::saved_len), a word longer than [`MAX_WORD_LEN`], or a count of
+    /// bytes after the snapshot that is not a whole number between the word's length and the
+    /// history's is refused and changes nothing.
     ///
     /// ```
     /// # use inkling_core::{Model, Scratch, session::{Session, SearchOptions}};
@@ -511,15 +670,32 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         for &b in word {
             restored.push(b)?;
         }
-        for (slots, src) in [&mut self.live, &mut self.boundary]
-            .into_iter()
-            .zip(saved.chunks_exact(needed / 2))
-        {
+        let since = saved.last().copied().unwrap_or(0.0);
+        let valid = (word.len() as f32..=history.len() as f32).contains(&since)
+            && since == libm::truncf(since);
+        if !valid {
+            return Err(Error::CapacityExceeded {
+                buffer: "bytes after the snapshot",
+                capacity: history.len(),
+            });
+        }
+        let (live, snapshot) = saved.split_at(needed / 2);
+        for (slot, src) in [(LIVE, live), (SNAPSHOT, snapshot)] {
             let (state, logits) = src.split_at_checked(state_len).unwrap_or((&[], &[]));
-            slots.load(0, state, logits);
+            self.states.write(slot, state);
+            let target = if slot == LIVE {
+                &mut *self.live_logits
+            } else {
+                &mut *self.snapshot_logits
+            };
+            for (t, &l) in target.iter_mut().zip(logits) {
+                *t = l;
+            }
         }
         self.word = restored;
         self.history = history.clone();
+        self.since_snapshot = since as usize;
+        self.search = Search::default();
         Ok(())
     }
 }
@@ -611,7 +787,7 @@ mod tests {
     fn backspace_gives_the_state_of_typing_the_shorter_text() {
         let image = tiny_image();
         let model = Model::from_bytes(&image).unwrap();
-        let text = b"ab cd, ef\ng";
+        let text = b"ab cd, ef\ng  hi jk";
         for cut in 0..text.len() {
             let mut b1 = Buffers::new();
             let mut edited = b1.session::<2, 64>(model);
@@ -624,9 +800,68 @@ mod tests {
             fresh.push_bytes(&text[..cut]).unwrap();
             assert_eq!(bits(edited.logits()), bits(fresh.logits()), "cut {cut}");
             assert_eq!(edited.word(), fresh.word());
-            let (e, f) = (edited.boundary.parts(0), fresh.boundary.parts(0));
-            assert_eq!(e.0, f.0, "snapshot state, cut {cut}");
+            let (mut e, mut f) = ([0.0f32; 512], [0.0f32; 512]);
+            edited.states.read(LIVE, &mut e);
+            fresh.states.read(LIVE, &mut f);
+            assert!(
+                e.iter().zip(&f).all(|(a, b)| a.to_bits() == b.to_bits()),
+                "live state, cut {cut}"
+            );
+            // The snapshot may sit elsewhere after an edit, but whatever follows gives the
+            // same states: typing on, and deleting everything back to the start.
+            edited.push_bytes(b"x y").unwrap();
+            fresh.push_bytes(b"x y").unwrap();
+            while fresh.backspace().unwrap() {
+                assert!(edited.backspace().unwrap());
+                assert_eq!(bits(edited.logits()), bits(fresh.logits()), "cut {cut}");
+            }
         }
+    }
+
+    #[test]
+    fn a_search_in_parts_gives_what_it_gives_at_once() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b = Buffers::new();
+        let mut s = b.session::<3, 64>(model);
+        let options = SearchOptions::new(3);
+        for context in [&b""[..], b"a", b"the ", b"we w", b"x,y"] {
+            s.clear().unwrap();
+            s.push_bytes(context).unwrap();
+            let whole = s.suggest(&options).unwrap();
+            for part in [0, 1, 2, 5] {
+                let mut found = s.suggest_within(&options, part).unwrap();
+                assert!(found.steps <= part);
+                let mut calls = 0;
+                while s.is_refining() {
+                    found = s.refine(&options, part.max(1)).unwrap();
+                    calls += 1;
+                }
+                assert_eq!(found, whole, "{context:?} in parts of {part}");
+                assert!(calls <= whole.steps + 1);
+            }
+        }
+        // An edit ends the search kept: refine gives the last result again.
+        s.suggest_within(&options, 0).unwrap();
+        s.push(b'z').unwrap();
+        assert!(!s.is_refining());
+    }
+
+    #[test]
+    fn correcting_a_word_after_its_boundary_needs_no_recovery() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut b1 = Buffers::new();
+        // A history of 40 bytes: a recovery would forget the start of the text.
+        let mut s = b1.session::<2, 40>(model);
+        let text = b"one two three four five six seven eight nine ten ";
+        s.push_bytes(text).unwrap();
+        s.backspace().unwrap(); // the final space: back to the start of "ten", no recovery
+        assert_eq!(s.word(), b"ten");
+        let mut b2 = Buffers::new();
+        let mut fresh = b2.session::<2, 64>(model);
+        fresh.push_bytes(&text[..text.len() - 1]).unwrap();
+        assert_eq!(bits(s.logits()), bits(fresh.logits()));
     }
 
     #[test]
@@ -638,14 +873,18 @@ mod tests {
         let text = b"one two three four five six seven eight nine ten ";
         s.push_bytes(text).unwrap();
         assert_eq!(s.history().len(), 40);
-        s.backspace().unwrap(); // across the final space: recovery from 39 bytes
+        // "ten " deleted back to its start, then the space before it: recovery from the 35
+        // bytes left in the history.
+        for _ in 0..5 {
+            s.backspace().unwrap();
+        }
         let kept: heapless::Vec<u8, 40> = s.history().iter().collect();
-        assert_eq!(&kept[..], &text[text.len() - 40..text.len() - 1]);
+        assert_eq!(&kept[..], &text[text.len() - 40..text.len() - 5]);
         let mut b2 = Buffers::new();
         let mut fresh = b2.session::<2, 40>(model);
         fresh.push_bytes(&kept).unwrap();
         assert_eq!(bits(s.logits()), bits(fresh.logits()));
-        assert_eq!(s.word(), b"ten");
+        assert_eq!(s.word(), b"nine");
     }
 
     #[test]
@@ -727,6 +966,7 @@ mod tests {
         let lexicon = WordList::new(b"hello\nhelp\nzebra\n").unwrap();
         let options = SearchOptions {
             max_steps: 10_000,
+            margin: f32::INFINITY,
             filter: WordFilter {
                 deny: WordList::EMPTY,
                 lexicon: Some(lexicon),
@@ -817,9 +1057,12 @@ mod tests {
         let mut b = Buffers::new();
         let mut s = b.session::<4, 64>(model);
         s.push_bytes(b"go ").unwrap();
-        let found = s
-            .keys(b"4663", &KeyMap::E161, &SearchOptions::new(4))
-            .unwrap();
+        // Every candidate followed, so that four words are found.
+        let every = SearchOptions {
+            margin: f32::INFINITY,
+            ..SearchOptions::new(4)
+        };
+        let found = s.keys(b"4663", &KeyMap::E161, &every).unwrap();
         assert_eq!(found.list.len(), 4);
         for x in &found.list {
             assert!(x.finished && x.text.len() == 4);

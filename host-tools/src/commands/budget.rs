@@ -35,6 +35,10 @@ pub struct BudgetArgs {
     /// How many shapes to show.
     #[arg(long, default_value_t = 5)]
     pub top: usize,
+    /// Only shapes whose largest keystroke (push and the whole search, predicted) takes at
+    /// most this many milliseconds at --clock.
+    #[arg(long)]
+    pub max_ms: Option<f64>,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
@@ -68,8 +72,10 @@ pub struct Candidate {
     pub ram_bytes: usize,
     /// Predicted instructions per step.
     pub step_instructions: f64,
-    /// Predicted instructions per keystroke.
+    /// Predicted instructions per keystroke, mean.
     pub keystroke_instructions: f64,
+    /// Predicted instructions of the largest keystroke.
+    pub keystroke_max_instructions: f64,
 }
 
 /// The shapes of the enumeration: blocks 1..=6, d_model 32..=256 in steps of 16, d_inner
@@ -100,6 +106,8 @@ pub fn fitting(model: &CostModel, flash: usize, ram: usize, beams: usize) -> Vec
                     + STACK_MARGIN,
                 step_instructions: model.step_instructions(&dims),
                 keystroke_instructions: model.keystroke_instructions(&dims, beams, max_steps),
+                keystroke_max_instructions: model
+                    .keystroke_max_instructions(&dims, beams, max_steps),
             }
         })
         .filter(|c| c.flash_bytes <= flash && c.ram_bytes <= ram)
@@ -139,6 +147,24 @@ fn nothing_fits_hint(model: &CostModel, flash: usize, ram: usize, beams: usize) 
     )
 }
 
+/// The `inkling train` option that builds a model of `dims`.
+pub fn train_option(dims: &Dims) -> String {
+    format!(
+        "--shape blocks={},d={},i={},n={},k={},r={}",
+        dims.blocks, dims.d_model, dims.d_inner, dims.d_state, dims.d_conv, dims.dt_rank
+    )
+}
+
+/// Milliseconds of `instructions` at `clock_mhz`, one instruction per cycle.
+pub fn milliseconds(instructions: f64, clock_mhz: f64) -> f64 {
+    instructions / (clock_mhz * 1e3)
+}
+
+/// Keeps the candidates whose largest keystroke takes at most `max_ms` at `clock_mhz`.
+pub fn within_latency(found: &mut Vec<Candidate>, clock_mhz: f64, max_ms: f64) {
+    found.retain(|c| milliseconds(c.keystroke_max_instructions, clock_mhz) <= max_ms);
+}
+
 /// Runs `inkling budget`.
 pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
     super::checks::positive("--clock", args.clock)?;
@@ -149,8 +175,11 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
     let model = CostModel::fit(&cal).ok_or_else(|| {
         HostError::Usage("built-in firmware measurements: too few shapes to fit".into())
     })?;
-    let found = fitting(&model, args.flash, args.ram, args.beams);
-    let ms = |instructions: f64| instructions / (args.clock * 1e3);
+    let ms = |instructions: f64| milliseconds(instructions, args.clock);
+    let mut found = fitting(&model, args.flash, args.ram, args.beams);
+    if let Some(limit) = args.max_ms {
+        within_latency(&mut found, args.clock, limit);
+    }
     let shown: Vec<&Candidate> = found.iter().take(args.top).collect();
     if args.json {
         let list: Vec<_> = shown
@@ -166,17 +195,21 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
                     "step_instructions": c.step_instructions.round(),
                     "keystroke_instructions": c.keystroke_instructions.round(),
                     "keystroke_ms": ms(c.keystroke_instructions),
+                    "keystroke_max_instructions": c.keystroke_max_instructions.round(),
+                    "keystroke_max_ms": ms(c.keystroke_max_instructions),
                     "bytes_per_second": args.clock * 1e6 / c.step_instructions,
+                    "train_option": train_option(&c.dims),
                 })
             })
             .collect();
         let mut v = serde_json::json!({
             "flash_bytes": args.flash, "ram_bytes": args.ram, "clock_mhz": args.clock,
-            "beams": args.beams, "fitting": found.len(), "shapes": list,
+            "beams": args.beams, "max_ms": args.max_ms, "fitting": found.len(), "shapes": list,
             "assumptions": {
                 "code_bytes": model.code_bytes,
                 "stack_bytes": model.stack_bytes + STACK_MARGIN,
                 "steps_per_keystroke": model.steps_per_keystroke(args.beams, SearchOptions::new(args.beams).max_steps),
+                "keystroke_max_to_mean": model.max_to_mean,
                 "instructions_per_cycle": 1.0,
             },
         });
@@ -187,8 +220,12 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         println!("{v}");
         return Ok(());
     }
+    let within = args
+        .max_ms
+        .map(|limit| format!(" with keystrokes of at most {limit} ms"))
+        .unwrap_or_default();
     println!(
-        "{} of {} shapes fit {} B flash and {} B RAM ({} suggestions, {} MHz; code {} B, stack {} B assumed; \
+        "{} of {} shapes fit {} B flash and {} B RAM{within} ({} suggestions, {} MHz; code {} B, stack {} B assumed; \
          time at one instruction per cycle, an optimistic bound):",
         found.len(),
         shapes().count(),
@@ -206,10 +243,10 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         );
         return Ok(());
     }
-    println!("blocks d_model d_inner d_state   MACs/step  flash B    RAM B  instr/step  ms/keystroke  bytes/s");
+    println!("blocks d_model d_inner d_state   MACs/step  flash B    RAM B  instr/step  ms/key mean  ms/key max  bytes/s  inkling train ...");
     for c in shown {
         println!(
-            "{:>6} {:>7} {:>7} {:>7} {:>11} {:>8} {:>8} {:>11.0} {:>13.1} {:>8.0}",
+            "{:>6} {:>7} {:>7} {:>7} {:>11} {:>8} {:>8} {:>11.0} {:>12.1} {:>11.1} {:>8.0}  {}",
             c.dims.blocks,
             c.dims.d_model,
             c.dims.d_inner,
@@ -219,7 +256,9 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
             c.ram_bytes,
             c.step_instructions,
             ms(c.keystroke_instructions),
-            args.clock * 1e6 / c.step_instructions
+            ms(c.keystroke_max_instructions),
+            args.clock * 1e6 / c.step_instructions,
+            train_option(&c.dims)
         );
     }
     Ok(())

@@ -4,7 +4,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 
-use inkling_core::session::{KeyMap, SearchOptions, WordFilter, DEFAULT_MAX_STEPS};
+use inkling_core::session::{KeyMap, SearchOptions};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
@@ -188,8 +188,7 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
             .with_weights(|w| {
                 let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
                 let session = memory.session::<_, MAX_COUNT>(w)?;
-                let mut predictor =
-                    ModelPredictor::new(session, DEFAULT_MAX_STEPS, WordFilter::default());
+                let mut predictor = ModelPredictor::new(session, SearchOptions::new(SHOWN));
                 simulate_with(sentence.as_bytes(), SHOWN, &mut predictor, |offer| {
                     let at_word_start = offer
                         .typed
@@ -271,8 +270,7 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
                 &mut baseline,
                 slice,
                 SHOWN,
-                DEFAULT_MAX_STEPS,
-                WordFilter::default(),
+                SearchOptions::new(SHOWN),
                 |_| {},
             )
         })

@@ -13,9 +13,9 @@
 use std::path::{Path, PathBuf};
 
 use indicatif::{ProgressBar, ProgressStyle};
-use inkling_core::session::DEFAULT_MAX_STEPS;
+use inkling_core::session::{DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
 
-use inkling_core::session::{WordFilter, WordList};
+use inkling_core::session::{SearchOptions, WordFilter, WordList};
 
 use super::suggest::read_word_list;
 use crate::compressors::{self, YARDSTICKS};
@@ -67,6 +67,10 @@ pub struct EvalArgs {
     /// Engine steps each search may take (for --savings and --keypad).
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
+    /// How far below the best a word may score and still be followed, in nats (for
+    /// --savings and --keypad; `inf` follows every word that could still be offered).
+    #[arg(long, default_value_t = DEFAULT_MARGIN)]
+    pub margin: f32,
 }
 
 fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), HostError> {
@@ -131,22 +135,16 @@ fn progress_bar(label: &str, len: usize) -> ProgressBar {
 fn savings(
     args: &EvalArgs,
     baseline: &mut FrequencyBaseline,
-    filter: WordFilter<'_>,
+    search: SearchOptions<'_>,
     text: &[u8],
 ) -> Result<Comparison, HostError> {
     let text = whole_words(text, args.max_bytes);
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("keystrokes", text.len());
     let found = file.with_weights(|w| {
-        compare(
-            w,
-            baseline,
-            text,
-            args.count,
-            args.max_steps,
-            filter,
-            |at| bar.set_position(at as u64),
-        )
+        compare(w, baseline, text, args.count, search, |at| {
+            bar.set_position(at as u64)
+        })
     });
     bar.finish_and_clear();
     found.map_err(|source| HostError::Image {
@@ -159,16 +157,14 @@ fn savings(
 fn keypad(
     args: &EvalArgs,
     baseline: &FrequencyBaseline,
-    filter: WordFilter<'_>,
+    search: SearchOptions<'_>,
     text: &[u8],
 ) -> Result<(KeypadCount, KeypadCount), HostError> {
     let text = whole_words(text, args.max_bytes);
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("12-key", text.len());
     let found = file.with_weights(|w| {
-        keypad_entry(w, baseline, text, args.max_steps, filter, |at| {
-            bar.set_position(at as u64)
-        })
+        keypad_entry(w, baseline, text, search, |at| bar.set_position(at as u64))
     });
     bar.finish_and_clear();
     found.map_err(|source| HostError::Image {
@@ -351,6 +347,12 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
         },
         ..WordFilter::default()
     };
+    let search = SearchOptions {
+        max_steps: args.max_steps,
+        margin: args.margin,
+        filter,
+        ..SearchOptions::new(args.count)
+    };
     let mut reports = Vec::with_capacity(texts.len());
     for (path, text) in args.text.iter().zip(&texts) {
         let (bits_per_byte, engine) = score(&args.model, text, "model")?;
@@ -361,11 +363,11 @@ pub fn run(args: &EvalArgs) -> Result<(), HostError> {
         let compressors =
             YARDSTICKS.map(|(program, flags)| compressors::bits_per_byte(program, flags, text));
         let savings = match (&mut baseline, args.savings) {
-            (Some(b), true) => Some(savings(args, b, filter, text)?),
+            (Some(b), true) => Some(savings(args, b, search, text)?),
             _ => None,
         };
         let keypad = match (&baseline, args.keypad) {
-            (Some(b), true) => Some(keypad(args, b, filter, text)?),
+            (Some(b), true) => Some(keypad(args, b, search, text)?),
             _ => None,
         };
         reports.push(TextReport {

@@ -6,7 +6,7 @@ use std::cmp::Ordering;
 
 use inkling_core::session::{
     is_boundary, word_order, SearchOptions, Session, Suggestions, WordFilter, WordList,
-    DEFAULT_MAX_STEPS,
+    DEFAULT_MARGIN, DEFAULT_MAX_STEPS,
 };
 use inkling_core::{Model, Scratch};
 
@@ -38,6 +38,10 @@ pub struct SearchArgs {
     /// Engine steps the search may take.
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
+    /// How far below the best a word may score and still be followed, in nats (`inf`
+    /// follows every word that could still be offered).
+    #[arg(long, default_value_t = DEFAULT_MARGIN)]
+    pub margin: f32,
 }
 
 /// Arguments of `inkling suggest`.
@@ -130,6 +134,7 @@ pub fn with_session(
     let options = SearchOptions {
         width: args.count,
         max_steps: args.max_steps,
+        margin: args.margin,
         filter,
     };
 

@@ -16,8 +16,10 @@ pub struct Sample {
     pub dims: Dims,
     /// Instructions of one engine step.
     pub step_instructions: u64,
-    /// Instructions of one keystroke, mean.
+    /// Instructions of one keystroke (the edit and the whole search), mean.
     pub keystroke_instructions_mean: u64,
+    /// Instructions of one keystroke (the edit and the whole search), largest.
+    pub keystroke_instructions_max: u64,
     /// Engine steps of the search per keystroke, mean.
     pub search_steps_mean: u64,
     /// Stack high-water mark, bytes.
@@ -26,6 +28,9 @@ pub struct Sample {
     pub image_bytes: usize,
     /// The firmware's text section (code, constants and the image), bytes.
     pub flash_text_bytes: usize,
+    /// Whether the weights were trained (`trained=1`), not drawn at random: a trained
+    /// model's search is far shorter.
+    pub trained: bool,
 }
 
 /// All measured shapes.
@@ -91,11 +96,13 @@ impl Calibration {
             samples.push(Sample {
                 dims,
                 step_instructions: field("step_instructions")?,
-                keystroke_instructions_mean: field("keystroke_instructions_mean")?,
+                keystroke_instructions_mean: field("keystroke_total_instructions_mean")?,
+                keystroke_instructions_max: field("keystroke_total_instructions_max")?,
                 search_steps_mean: field("keystroke_search_steps_mean")?,
                 stack_used_bytes: field("stack_used_bytes")? as usize,
                 image_bytes: field("image_bytes")? as usize,
                 flash_text_bytes: field("flash_text_bytes")? as usize,
+                trained: field("trained").is_ok_and(|v| v == 1),
             });
         }
         Ok(Calibration {

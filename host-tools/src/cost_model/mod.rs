@@ -24,16 +24,21 @@ pub fn step_features(d: &Dims) -> [f64; 4] {
     ]
 }
 
-/// Fitted instruction counts: `step = Σ coef · feature`, and per keystroke
-/// `(search steps + 1) · (step + overhead)` with `overhead = o0 + o1 · state floats`.
+/// Fitted instruction counts: `step = Σ coef · feature`, and per keystroke on average
+/// `(search steps + 1) · (step + overhead)` with `overhead = o0 + o1 · state floats`; the
+/// largest keystroke is the mean times the largest-to-mean ratio measured.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct CostModel {
     /// Instructions per MAC, per scan exponential, per channel, per matrix row.
     pub step: [f64; 4],
     /// Instructions a search step adds to a step: constant and per state float (copies).
     pub search_overhead: [f64; 2],
-    /// Mean engine steps the search takes per keystroke with `beams` suggestions.
+    /// Mean engine steps the search takes per keystroke with `beams` suggestions (on the
+    /// trained models measured, if any).
     pub search_steps: f64,
+    /// The largest keystroke over the mean one, the largest ratio measured (on the trained
+    /// models, if any).
+    pub max_to_mean: f64,
     /// Suggestions the calibration ran with.
     pub beams: usize,
     /// Largest stack high-water mark measured, bytes.
@@ -62,11 +67,30 @@ impl CostModel {
             })
             .collect();
         let over = least_squares(&over_rows, &over_y)?;
-        let n = s.len().max(1) as f64;
+        // The search's length and spread from the trained models when there are any: random
+        // weights spread the next byte's probability, and the search goes on far longer.
+        let trained: Vec<&Sample> = s.iter().filter(|x| x.trained).collect();
+        let typing: Vec<&Sample> = if trained.is_empty() {
+            s.iter().collect()
+        } else {
+            trained
+        };
+        let n = typing.len().max(1) as f64;
         Some(CostModel {
             step: [step[0], step[1], step[2], step[3]],
             search_overhead: [over[0], over[1]],
-            search_steps: s.iter().map(|x| x.search_steps_mean as f64).sum::<f64>() / n,
+            search_steps: typing
+                .iter()
+                .map(|x| x.search_steps_mean as f64)
+                .sum::<f64>()
+                / n,
+            max_to_mean: typing
+                .iter()
+                .map(|x| {
+                    x.keystroke_instructions_max as f64
+                        / x.keystroke_instructions_mean.max(1) as f64
+                })
+                .fold(1.0, f64::max),
             beams: cal.beams,
             stack_bytes: s.iter().map(|x| x.stack_used_bytes).max().unwrap_or(0),
             code_bytes: s
@@ -94,10 +118,17 @@ impl CostModel {
         1.0 + search.min(max_steps as f64)
     }
 
-    /// Predicted instructions of one keystroke (push and suggest) with `beams` suggestions.
+    /// Predicted instructions of one keystroke (push and the whole search) with `beams`
+    /// suggestions, on average.
     pub fn keystroke_instructions(&self, d: &Dims, beams: usize, max_steps: usize) -> f64 {
         let over = self.search_overhead[0] + self.search_overhead[1] * d.state_len() as f64;
         self.steps_per_keystroke(beams, max_steps) * (self.step_instructions(d) + over)
+    }
+
+    /// Predicted instructions of the largest keystroke of a typing script like the
+    /// calibration's: the mean times [`max_to_mean`](CostModel::max_to_mean).
+    pub fn keystroke_max_instructions(&self, d: &Dims, beams: usize, max_steps: usize) -> f64 {
+        self.max_to_mean * self.keystroke_instructions(d, beams, max_steps)
     }
 }
 

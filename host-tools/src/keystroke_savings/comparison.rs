@@ -1,7 +1,6 @@
 //! The model against the baseline on one text: the figures `eval --savings` and the demo print.
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::WordFilter;
 use inkling_core::Error;
 
 use crate::commands::suggest::MAX_COUNT;
@@ -10,6 +9,7 @@ use super::frequency_baseline::FrequencyBaseline;
 use super::model_predictor::ModelPredictor;
 use super::session_memory::SessionMemory;
 use super::simulation::{simulate, simulate_with, KeyCount};
+use inkling_core::session::SearchOptions;
 
 /// The framings reported: (selection key counted, automatic space). The first is the headline.
 pub const FRAMINGS: [(bool, bool); 3] = [(true, false), (true, true), (false, false)];
@@ -27,20 +27,19 @@ pub struct Comparison {
     pub search_steps: usize,
 }
 
-/// Types `text` with the model `weights` (its suggestions kept to the words `filter` allows)
-/// and with `baseline`, `count` suggestions each (at most [`MAX_COUNT`]); `progress` hears how many bytes of the text the model has done.
+/// Types `text` with the model `weights` and with `baseline`, `count` suggestions each (at
+/// most [`MAX_COUNT`]); `progress` hears how many bytes of the text the model has done.
 pub fn compare(
     weights: &dyn Weights,
     baseline: &mut FrequencyBaseline,
     text: &[u8],
     count: usize,
-    max_steps: usize,
-    filter: WordFilter<'_>,
+    search: SearchOptions<'_>,
     mut progress: impl FnMut(usize),
 ) -> Result<Comparison, Error> {
     let mut memory = SessionMemory::new(weights.dims(), MAX_COUNT);
     let session = memory.session::<_, MAX_COUNT>(weights)?;
-    let mut predictor = ModelPredictor::new(session, max_steps, filter);
+    let mut predictor = ModelPredictor::new(session, search);
     let model = simulate_with(text, count, &mut predictor, |offer| {
         progress(offer.typed.len())
     })?;

@@ -19,7 +19,7 @@
 //! disambiguation list), with the same counting.
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{is_boundary, KeyMap, SearchOptions, WordFilter, MAX_WORD_LEN};
+use inkling_core::session::{is_boundary, KeyMap, SearchOptions, MAX_WORD_LEN};
 use inkling_core::Error;
 
 use super::frequency_baseline::FrequencyBaseline;
@@ -128,14 +128,13 @@ fn words(text: &[u8]) -> impl Iterator<Item = (usize, usize)> + '_ {
 }
 
 /// 12-key entry of `text` with the model (each word's digits searched after the text before
-/// it, at most `max_steps` engine steps a search, keeping to the words `filter` allows) and
-/// with `baseline`'s frequency-ordered dictionary; `progress` hears how many bytes are done.
+/// it, with the step budget, margin and word lists of `search`, [`OFFERED`] wide) and with
+/// `baseline`'s frequency-ordered dictionary; `progress` hears how many bytes are done.
 pub fn keypad_entry(
     weights: &dyn Weights,
     baseline: &FrequencyBaseline,
     text: &[u8],
-    max_steps: usize,
-    filter: WordFilter<'_>,
+    search: SearchOptions<'_>,
     mut progress: impl FnMut(usize),
 ) -> Result<(KeypadCount, KeypadCount), Error> {
     let mut memory = SessionMemory::new(weights.dims(), OFFERED);
@@ -158,9 +157,8 @@ pub fn keypad_entry(
         match digits_of(word).filter(|_| word.len() <= MAX_WORD_LEN) {
             Some(digits) => {
                 let options = SearchOptions {
-                    max_steps,
-                    filter,
-                    ..SearchOptions::new(OFFERED)
+                    width: OFFERED,
+                    ..search
                 };
                 let found = session.keys(&digits, &KeyMap::E161, &options)?;
                 let offered: Vec<Vec<u8>> = found.list.iter().map(|s| s.text.to_vec()).collect();

@@ -1,7 +1,7 @@
 //! The model's typing session as a [`Predictor`].
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{SearchOptions, Session, WordFilter};
+use inkling_core::session::{SearchOptions, Session};
 use inkling_core::Error;
 
 use super::simulation::Predictor;
@@ -11,20 +11,18 @@ use super::simulation::Predictor;
 #[derive(Debug)]
 pub struct ModelPredictor<'b, W: Weights, const K: usize> {
     session: Session<'b, W, K>,
-    max_steps: usize,
-    filter: WordFilter<'b>,
+    search: SearchOptions<'b>,
     /// Engine steps taken by the searches so far.
     pub search_steps: usize,
 }
 
 impl<'b, W: Weights, const K: usize> ModelPredictor<'b, W, K> {
-    /// A predictor over `session`, each search bounded by `max_steps` engine steps and
-    /// keeping to the words `filter` allows.
-    pub fn new(session: Session<'b, W, K>, max_steps: usize, filter: WordFilter<'b>) -> Self {
+    /// A predictor over `session`, each search run with the step budget and margin of
+    /// `search` (its width is the count asked for).
+    pub fn new(session: Session<'b, W, K>, search: SearchOptions<'b>) -> Self {
         ModelPredictor {
             session,
-            max_steps,
-            filter,
+            search,
             search_steps: 0,
         }
     }
@@ -42,9 +40,8 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
 
     fn offer(&mut self, _prefix: &[u8], count: usize) -> Result<Vec<Vec<u8>>, Error> {
         let options = SearchOptions {
-            max_steps: self.max_steps,
-            filter: self.filter,
-            ..SearchOptions::new(count.min(K))
+            width: count.min(K),
+            ..self.search
         };
         let found = self.session.suggest(&options)?;
         self.search_steps += found.steps;
