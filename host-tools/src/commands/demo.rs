@@ -1,12 +1,11 @@
 //! `inkling demo`: the bundled demo model, end to end, with no download.
 
-use std::io::Write;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Stdio};
 
 use inkling_core::session::{KeyMap, SearchOptions};
 
 use super::suggest::MAX_COUNT;
+use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
 use crate::keystroke_savings::simulation::whole_words;
 use crate::keystroke_savings::{
@@ -286,25 +285,6 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
     }))
 }
 
-/// Bits per byte of `text` compressed by `program args` (run as a separate process), if it runs.
-fn compressed_bits_per_byte(program: &str, args: &[&str], text: &[u8]) -> Option<f64> {
-    let mut child = Command::new(program)
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .spawn()
-        .ok()?;
-    let mut stdin = child.stdin.take()?;
-    let input = text.to_vec();
-    let writer = std::thread::spawn(move || stdin.write_all(&input));
-    let out = child.wait_with_output().ok()?;
-    writer.join().ok()?.ok()?;
-    out.status
-        .success()
-        .then(|| 8.0 * out.stdout.len() as f64 / text.len() as f64)
-}
-
 /// The model's greedy continuation of `prompt`, `len` bytes long.
 fn continue_greedily(file: &ModelFile, prompt: &str, len: usize) -> String {
     file.with_weights(|w| {
@@ -372,8 +352,8 @@ pub fn run(args: &DemoArgs) -> Result<(), HostError> {
         let text = &text[..text.len().min(args.eval_bytes)];
         let f = float.with_weights(|w| bits_per_byte(w, text, |_| {}));
         let q = image.with_weights(|w| bits_per_byte(w, text, |_| {}));
-        let gz = compressed_bits_per_byte("gzip", &["-9", "-c"], text);
-        let xz = compressed_bits_per_byte("xz", &["-9e", "-c"], text);
+        let [xz, gz] =
+            YARDSTICKS.map(|(program, flags)| compressors::bits_per_byte(program, flags, text));
         let show = |v: Option<f64>| v.map_or("n/a".to_string(), |v| format!("{v:.3}"));
         if !args.json {
             println!(
