@@ -163,7 +163,7 @@ pub fn session_edits(data: &[u8]) {
             3 => {
                 // Runs of up to 15; a few runs in a row reach back past the history's start.
                 for _ in 0..arg % 16 {
-                    backspace(&mut session, &mut seen);
+                    backspace(&mut session, &mut seen, model);
                 }
             }
             4 => {
@@ -228,7 +228,7 @@ fn push(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>, b: u8) {
     }
 }
 
-fn backspace(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>) {
+fn backspace(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>, model: Model<'_>) {
     let inside_word = !session.word().is_empty();
     let had_history = !session.history().is_empty();
     let deleted = session.backspace().expect("backspace");
@@ -236,11 +236,20 @@ fn backspace(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>) {
     if !deleted {
         return;
     }
-    if inside_word {
-        seen.pop();
-    } else {
-        // Across a boundary the state is rebuilt from the history alone.
-        *seen = session.history().iter().collect();
+    seen.pop();
+    let history: Vec<u8> = session.history().iter().collect();
+    if inside_word || *seen == history {
+        return;
+    }
+    // Across a boundary the state is either restored from the snapshot (the whole text
+    // still counts) or, when the snapshot is older than the history, rebuilt from the
+    // history alone; these differ only once text has fallen out of the history.
+    let dims = *model.dims();
+    let mut fresh_buffers = SessionBuffers::<BEAMS>::new(&dims);
+    let mut fresh = fresh_buffers.session::<HISTORY>(model);
+    fresh.push_bytes(seen).expect("the text pushes as it did before");
+    if bits(fresh.logits()) != bits(session.logits()) {
+        *seen = history;
     }
 }
 
