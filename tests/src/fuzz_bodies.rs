@@ -247,7 +247,9 @@ fn backspace(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>, model: Model<'_>
     let dims = *model.dims();
     let mut fresh_buffers = SessionBuffers::<BEAMS>::new(&dims);
     let mut fresh = fresh_buffers.session::<HISTORY>(model);
-    fresh.push_bytes(seen).expect("the text pushes as it did before");
+    fresh
+        .push_bytes(seen)
+        .expect("the text pushes as it did before");
     if bits(fresh.logits()) != bits(session.logits()) {
         *seen = history;
     }
