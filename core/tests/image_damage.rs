@@ -1,8 +1,9 @@
 //! Damaged images: every one is an error, never a panic.
 
 use inkling_core::image::checksum::crc32;
-use inkling_core::image::example::tiny_image;
-use inkling_core::image::format::{CRC_LEN, HEADER_LEN};
+use inkling_core::image::example::{tiny_image, tiny_tensors, TinyTensors, TINY_IMAGE_LEN};
+use inkling_core::image::format::{Role, SourceLayout, CRC_LEN, HEADER_LEN, SOURCE_RECORD_LEN};
+use inkling_core::image::writer::{write_image, Payload, TensorSource};
 use inkling_core::{Error, Model};
 use proptest::prelude::*;
 
@@ -47,11 +48,42 @@ fn wrong_major_version_is_named() {
         Model::from_bytes(&image).unwrap_err(),
         Error::UnsupportedVersion { major: 2, minor: 0 }
     );
-    // A newer minor version of the same major is read.
-    let mut image = tiny_image();
+    // A newer minor version of the same major is read: minor versions from 1 on carry the
+    // source record, and later ones only add what this reader may ignore.
+    let mut image = image_with_source_record();
     image[6] = 7;
     restamp(&mut image);
     assert_eq!(Model::from_bytes(&image).unwrap().version(), (1, 7));
+    // Minor version 1 or later without the record is refused, naming the record.
+    let mut image = tiny_image();
+    image[6] = 7;
+    restamp(&mut image);
+    assert!(matches!(
+        Model::from_bytes(&image),
+        Err(Error::BadHeader {
+            field: "source record",
+            ..
+        })
+    ));
+}
+
+/// The tiny example image written with a source record (minor version 1).
+fn image_with_source_record() -> Vec<u8> {
+    struct FromReference(TinyTensors);
+    impl TensorSource for FromReference {
+        fn payload(&self, role: Role, block: usize) -> Payload<'_> {
+            self.0.payload(role, block)
+        }
+        fn source_layout(&self) -> Option<SourceLayout> {
+            Some(SourceLayout::ReferenceCode)
+        }
+    }
+    let (dims, tensors) = tiny_tensors();
+    let mut out = vec![0u8; TINY_IMAGE_LEN + SOURCE_RECORD_LEN];
+    let len = write_image(&dims, &FromReference(tensors), &mut out).unwrap();
+    out.truncate(len);
+    assert_eq!(Model::from_bytes(&out).unwrap().version(), (1, 1));
+    out
 }
 
 #[test]

@@ -22,6 +22,12 @@
 //! still reported as unfinished). Words never exceed [`MAX_WORD_LEN`]: a beam at that length
 //! may only end.
 //!
+//! Case variants of one word (`Tamsel`, `tamsel`) are different texts with different
+//! states, but a second case of a likelier word counts `SECOND_CASE_COST` (1.5 nats) less
+//! when it would take a beam from a different word, so the beams hold different words
+//! unless a second case is much likelier (on 12-key entry each key stands for its letters in
+//! both cases).
+//!
 //! Only `width` beam states are needed, not one per candidate, and no logits are kept: after
 //! choosing the best (beam, byte) pairs, the first child of each parent takes over its
 //! parent's slot and the other children copy the parent's state into slots freed by parents
@@ -210,6 +216,7 @@ impl<const K: usize> Search<K> {
                 let started = characters_started(beam.text.get(prefix..).unwrap_or(&[]));
                 extend(
                     &beam,
+                    &self.parents,
                     parent,
                     logits,
                     started,
@@ -226,9 +233,15 @@ impl<const K: usize> Search<K> {
                 .candidates
                 .first()
                 .map_or(f32::NEG_INFINITY, |c| c.score);
+            // On 12-key entry a likely prefix says little of the word of exactly the keys'
+            // length, so there the margin counts only against the best finished word.
+            let round_margin = match shape {
+                Shape::Free => options.margin,
+                Shape::Keys { .. } => f32::INFINITY,
+            };
             let list = &self.out.list;
             self.candidates
-                .retain(|c| c.score >= best - options.margin && is_open(list, options, c.score));
+                .retain(|c| c.score >= best - round_margin && is_open(list, options, c.score));
             if self.out.cut_short || self.candidates.is_empty() {
                 self.running = false;
                 break;
@@ -278,6 +291,7 @@ fn is_open(finished: &[Suggestion], options: &SearchOptions<'_>, score: f32) -> 
 #[allow(clippy::too_many_arguments)]
 fn extend<const K: usize>(
     beam: &Beam,
+    parents: &[Beam],
     parent: usize,
     logits: &[f32],
     started: usize,
@@ -301,24 +315,90 @@ fn extend<const K: usize>(
         } else if !beam.text.is_full()
             && tail.admits(byte)
             && shape.allows(started, byte)
-            && beats_worst(candidates, width, score, |c| c.score)
+            && may_enter(candidates, width, score)
         {
             let mut text = beam.text.clone();
             let _ = text.push(byte);
             if options.filter.may_extend(&text) {
-                insert_ranked(
-                    candidates,
-                    width,
-                    Candidate {
-                        parent,
-                        byte,
-                        score,
-                    },
-                    |c| c.score,
-                );
+                let parent_text = |i: usize| {
+                    if i == parent {
+                        beam.text.as_slice()
+                    } else {
+                        parents.get(i).map_or(&[][..], |p| p.text.as_slice())
+                    }
+                };
+                let new = Candidate {
+                    parent,
+                    byte,
+                    score,
+                };
+                insert_candidate(candidates, width, new, parent_text);
             }
         }
     }
+}
+
+/// Whether a candidate scored `score` could enter the full or not full `candidates` (the
+/// quick check before [`insert_candidate`]): at best it pushes out a second case counted
+/// [`SECOND_CASE_COST`] below its score.
+fn may_enter(candidates: &[Candidate], width: usize, score: f32) -> bool {
+    beats_worst(candidates, width, score + SECOND_CASE_COST, |c| c.score)
+}
+
+/// How much less a second case of a word counts when the beams are contested, in nats:
+/// `Tamsel` beside a likelier `tamsel` keeps its beam against a different word only if it is
+/// more than this likelier than that word. Without it, on 12-key entry (each key stands for
+/// its letters in both cases) `FL`, `Fl` and `fl` fill the beams and push out `El`; with an
+/// infinite cost, the first letter's case would be settled by its first byte alone (`t`
+/// likelier than `T` before `amsel`). 1.5 nats (about 4.5 times) was chosen on the demo
+/// model's 12-key names; common practice, no source.
+pub(crate) const SECOND_CASE_COST: f32 = 1.5;
+
+/// Puts `new` among the ranked `candidates` (at most `width`). When they are full, the one
+/// to leave is the lowest by score, where a candidate that is a second case of a likelier one
+/// (the same word up to ASCII case) counts [`SECOND_CASE_COST`] less; `new` leaves if it is
+/// that one (a tie keeps what was there).
+fn insert_candidate<'t, const K: usize>(
+    candidates: &mut heapless::Vec<Candidate, K>,
+    width: usize,
+    new: Candidate,
+    parent_text: impl Fn(usize) -> &'t [u8],
+) {
+    if candidates.len() < width {
+        insert_ranked(candidates, width, new, |c| c.score);
+        return;
+    }
+    let same_word = |a: &Candidate, b: &Candidate| {
+        a.byte.eq_ignore_ascii_case(&b.byte)
+            && parent_text(a.parent).eq_ignore_ascii_case(parent_text(b.parent))
+    };
+    let counted = |c: &Candidate| {
+        let second = candidates
+            .iter()
+            .chain(core::iter::once(&new))
+            .any(|o| o.score > c.score && same_word(o, c));
+        if second {
+            c.score - SECOND_CASE_COST
+        } else {
+            c.score
+        }
+    };
+    let mut leaving: Option<(usize, f32)> = None;
+    for (i, c) in candidates.iter().enumerate() {
+        let v = counted(c);
+        // Among equals the later one leaves, as `insert_ranked` drops the last.
+        if leaving.is_none_or(|(_, worst)| v <= worst) {
+            leaving = Some((i, v));
+        }
+    }
+    let Some((at, worst)) = leaving else {
+        return;
+    };
+    if counted(&new) <= worst {
+        return;
+    }
+    candidates.remove(at);
+    insert_ranked(candidates, width, new, |c| c.score);
 }
 
 /// The beams of the next round, one per candidate (same order), each in a slot holding its
@@ -426,6 +506,7 @@ fn offer_finished<const K: usize>(
 
 #[cfg(test)]
 mod tests {
+    use super::{insert_candidate, may_enter, Candidate};
     use crate::engine::buffers::Scratch;
     use crate::engine::recurrence::step;
     use crate::image::example::tiny_image;
@@ -474,6 +555,54 @@ mod tests {
                 .fold(f64::NEG_INFINITY, f64::max);
         }
         total
+    }
+
+    /// Candidates after the root (parent 0, no text): `(byte, score)`, ranked.
+    fn after_root(list: &[(u8, f32)]) -> heapless::Vec<Candidate, 3> {
+        list.iter()
+            .map(|&(byte, score)| Candidate {
+                parent: 0,
+                byte,
+                score,
+            })
+            .collect()
+    }
+
+    fn bytes(list: &[Candidate]) -> heapless::Vec<u8, 3> {
+        list.iter().map(|c| c.byte).collect()
+    }
+
+    #[test]
+    fn a_second_case_gives_way_to_a_different_word_unless_much_likelier() {
+        let root = |_: usize| &b""[..];
+        // E beside F, D and a second case f: f leaves, though E scores below it.
+        let mut list = after_root(&[(b'F', -3.3), (b'D', -3.35), (b'f', -3.5)]);
+        let new = Candidate {
+            parent: 0,
+            byte: b'E',
+            score: -3.6,
+        };
+        assert!(may_enter(&list, 3, new.score));
+        insert_candidate(&mut list, 3, new, root);
+        assert_eq!(bytes(&list), b"FDE"[..]);
+        // T, a second case of t, more than SECOND_CASE_COST likelier than V: V leaves.
+        let mut list = after_root(&[(b't', -2.7), (b'U', -8.0), (b'V', -9.0)]);
+        let new = Candidate {
+            parent: 0,
+            byte: b'T',
+            score: -3.2,
+        };
+        insert_candidate(&mut list, 3, new, root);
+        assert_eq!(bytes(&list), b"tTU"[..]);
+        // ... but not within it: U stays.
+        let mut list = after_root(&[(b't', -2.7), (b'U', -4.0), (b'V', -4.1)]);
+        let new = Candidate {
+            parent: 0,
+            byte: b'T',
+            score: -3.2,
+        };
+        insert_candidate(&mut list, 3, new, root);
+        assert_eq!(bytes(&list), b"tUV"[..]);
     }
 
     #[test]

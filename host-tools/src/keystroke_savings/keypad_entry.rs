@@ -100,7 +100,11 @@ fn multi_tap_presses(word: &[u8]) -> usize {
         .filter_map(|&b| {
             let lower = b.to_ascii_lowercase();
             let set = KeyMap::E161.letters(key_of(b)?)?;
-            set.iter().position(|l| l == lower).map(|p| p + 1)
+            // The key's set holds both cases; the place counts its lower-case letters.
+            set.iter()
+                .filter(u8::is_ascii_lowercase)
+                .position(|l| l == lower)
+                .map(|p| p + 1)
         })
         .sum()
 }
