@@ -84,10 +84,16 @@ fn twelve_key_entry_types_the_scenarios_proper_names() {
     let (text, name) = ("Handover done at 10:20 to ", "Aldwen");
     let digits = e161_digits(name);
     let with = |count: &str| {
-        let args = ["keys", demo, "--digits", &digits, "--text", text, "--count", count];
+        let args = [
+            "keys", demo, "--digits", &digits, "--text", text, "--count", count,
+        ];
         first_suggestion(&args)
     };
-    assert_eq!(with("5"), name, "keys {digits} after {text:?}, 5 suggestions");
+    assert_eq!(
+        with("5"),
+        name,
+        "keys {digits} after {text:?}, 5 suggestions"
+    );
 }
 
 #[test]
@@ -210,6 +216,32 @@ fn amounts_of_zero_are_refused_before_any_work() {
     assert!(stderr.contains("--max-bytes 0"), "{stderr}");
     let stderr = refused(&["budget", "--flash", "512K", "--ram", "64K", "--clock", "0"]);
     assert!(stderr.contains("--clock 0"), "{stderr}");
+    // Zero steps would write an untrained checkpoint with a loss of NaN.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("zero.safetensors");
+    let stderr = refused(&[
+        "train",
+        train,
+        "--out",
+        out.to_str().unwrap(),
+        "--steps",
+        "0",
+    ]);
+    assert!(stderr.contains("--steps"), "{stderr}");
+    assert!(!out.exists());
+    // An --out that cannot be written is refused before training, not after.
+    let stderr = refused(&[
+        "train",
+        train,
+        "--out",
+        "no-such-folder/x.safetensors",
+        "--steps",
+        "100000",
+    ]);
+    assert!(
+        stderr.contains("the folder no-such-folder does not exist"),
+        "{stderr}"
+    );
     // A wrong --against fails before the first model is scored (nothing printed first).
     let stderr = refused(&["eval", demo, "--text", text, "--against", "README.md"]);
     assert!(
@@ -415,5 +447,49 @@ fn budget_says_why_nothing_fits() {
     assert!(
         text.contains("nothing fits: too little RAM (the smallest shape needs"),
         "{text}"
+    );
+}
+
+#[test]
+fn the_train_option_budget_lists_builds_that_shape() {
+    let budget = inkling_tests::inkling_cli::run_json(
+        ["budget", "--flash", "256K", "--ram", "64K", "--json"].map(std::ffi::OsStr::new),
+    );
+    let shape = &budget["shapes"][0];
+    let option = shape["train_option"].as_str().unwrap();
+    let dims = option.strip_prefix("--shape ").unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let corpus = dir.path().join("corpus.txt");
+    std::fs::write(&corpus, "the hut is open. the path is clear. ".repeat(200)).unwrap();
+    let ckpt = dir.path().join("shape.safetensors");
+    let args = [
+        "train",
+        corpus.to_str().unwrap(),
+        "--out",
+        ckpt.to_str().unwrap(),
+        "--shape",
+        dims,
+        "--steps",
+        "1",
+        "--batch",
+        "1",
+        "--seq-len",
+        "16",
+        "--json",
+    ];
+    inkling_tests::inkling_cli::run_json(args.map(std::ffi::OsStr::new));
+    let image = dir.path().join("shape.inkl");
+    inkling_tests::inkling_cli::convert(&ckpt, &image, &[]);
+    let inspect = inkling_tests::inkling_cli::run_json(
+        ["inspect", image.to_str().unwrap(), "--json"].map(std::ffi::OsStr::new),
+    );
+    // The image's multiply-accumulates per byte and size are the budget's for that shape.
+    assert_eq!(
+        inspect["macs_per_step"], shape["macs_per_step"],
+        "{inspect}"
+    );
+    assert_eq!(
+        std::fs::metadata(&image).unwrap().len(),
+        shape["image_bytes"].as_u64().unwrap()
     );
 }

@@ -41,8 +41,9 @@ pub struct SearchOptions<'a> {
     /// probability): a candidate more than `margin` below the best candidate of its round,
     /// or below the best finished word, is not stepped. Smaller is faster and offers fewer
     /// unlikely words; `f32::INFINITY` follows every candidate that could still enter the
-    /// results. On 12-key entry ([`Session::keys`](super::Session::keys)) only the second
-    /// rule applies: there a likely prefix says little of a word of exactly the keys' length.
+    /// results. On 12-key entry ([`Session::keys`](super::Session::keys)) the first rule
+    /// allows four times the margin: there a likely prefix says less of a word of exactly
+    /// the keys' length.
     pub margin: f32,
     /// Words never offered, and optionally the only words offered.
     pub filter: WordFilter<'a>,
