@@ -17,7 +17,7 @@ use inkling_core::image::format::Role;
 use toml::Spanned;
 
 use crate::error::QuantizeError;
-use crate::schema::{parse_schema_name, schema_name, ROLES};
+use crate::schema::{parse_schema_name, schema_name};
 
 /// The placeholder for a block number in a map's keys and values.
 pub const BLOCK_PLACEHOLDER: &str = "{block}";
@@ -137,7 +137,7 @@ impl NameMap {
                 let field = ours
                     .strip_prefix("blocks.{block}.")
                     .ok_or_else(not_schema)?;
-                let role = ROLES
+                let role = Role::ALL
                     .into_iter()
                     .find(|r| r.is_block_role() && r.name() == field)
                     .ok_or_else(not_schema)?;

@@ -159,23 +159,6 @@ pub fn schema_name(role: Role, block: usize) -> String {
     }
 }
 
-/// Every role, whole-model roles first.
-pub const ROLES: [Role; 13] = [
-    Role::ByteEmbed,
-    Role::FinalNorm,
-    Role::Head,
-    Role::Norm,
-    Role::Expand,
-    Role::Conv,
-    Role::ConvBias,
-    Role::Select,
-    Role::Step,
-    Role::StepBias,
-    Role::Decay,
-    Role::Skip,
-    Role::Contract,
-];
-
 /// The role whose schema name, with `block` for a block role, is `name`.
 ///
 /// ```
@@ -189,12 +172,12 @@ pub fn parse_schema_name(name: &str) -> Option<(Role, usize)> {
     if let Some(rest) = name.strip_prefix("blocks.") {
         let (block, field) = rest.split_once('.')?;
         let block: usize = block.parse().ok()?;
-        let role = ROLES
+        let role = Role::ALL
             .into_iter()
             .find(|r| r.is_block_role() && r.name() == field)?;
         return Some((role, block));
     }
-    ROLES
+    Role::ALL
         .into_iter()
         .find(|r| !r.is_block_role() && r.name() == name)
         .map(|r| (r, 0))

@@ -317,6 +317,29 @@ pub enum Role {
 }
 
 impl Role {
+    /// Every role: the three whole-model roles, then [`Role::BLOCK_ROLES`].
+    ///
+    /// ```
+    /// use inkling_core::image::format::Role;
+    /// assert_eq!(Role::ALL.len(), 13);
+    /// assert_eq!(Role::ALL.iter().filter(|r| r.is_block_role()).count(), 10);
+    /// ```
+    pub const ALL: [Role; 3 + TENSORS_PER_BLOCK] = [
+        Role::ByteEmbed,
+        Role::FinalNorm,
+        Role::Head,
+        Role::Norm,
+        Role::Expand,
+        Role::Conv,
+        Role::ConvBias,
+        Role::Select,
+        Role::Step,
+        Role::StepBias,
+        Role::Decay,
+        Role::Skip,
+        Role::Contract,
+    ];
+
     /// The ten roles of a block, in canonical table order.
     ///
     /// ```
@@ -375,10 +398,7 @@ impl Role {
     /// assert_eq!(Role::from_code(3), None);
     /// ```
     pub fn from_code(code: u16) -> Option<Role> {
-        [Role::ByteEmbed, Role::FinalNorm, Role::Head]
-            .into_iter()
-            .chain(Role::BLOCK_ROLES)
-            .find(|r| r.code() == code)
+        Role::ALL.into_iter().find(|r| r.code() == code)
     }
 
     /// The checkpoint schema's name for this role (without the `blocks.l.` prefix).
