@@ -324,21 +324,31 @@ impl Role {
     /// assert_eq!(Role::ALL.len(), 13);
     /// assert_eq!(Role::ALL.iter().filter(|r| r.is_block_role()).count(), 10);
     /// ```
-    pub const ALL: [Role; 3 + TENSORS_PER_BLOCK] = [
-        Role::ByteEmbed,
-        Role::FinalNorm,
-        Role::Head,
-        Role::Norm,
-        Role::Expand,
-        Role::Conv,
-        Role::ConvBias,
-        Role::Select,
-        Role::Step,
-        Role::StepBias,
-        Role::Decay,
-        Role::Skip,
-        Role::Contract,
-    ];
+    // Evaluated at compile time: an index out of range fails the build.
+    #[allow(clippy::indexing_slicing)]
+    pub const ALL: [Role; 3 + TENSORS_PER_BLOCK] = {
+        let mut all = [
+            Role::ByteEmbed,
+            Role::FinalNorm,
+            Role::Head,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+            Role::Norm,
+        ];
+        let mut i = 0;
+        while i < TENSORS_PER_BLOCK {
+            all[3 + i] = Role::BLOCK_ROLES[i];
+            i += 1;
+        }
+        all
+    };
 
     /// The ten roles of a block, in canonical table order.
     ///

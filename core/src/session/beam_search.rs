@@ -564,52 +564,39 @@ mod tests {
         total
     }
 
-    /// Candidates after the root (parent 0, no text): `(byte, score)`, ranked.
-    fn after_root(list: &[(u8, f32)]) -> heapless::Vec<Candidate, 3> {
-        list.iter()
+    /// The bytes of the candidates after the root (parent 0, no text) given as `(byte,
+    /// score)`, once `(byte, score)` is offered.
+    fn after_offering(list: &[(u8, f32)], (byte, score): (u8, f32)) -> heapless::Vec<u8, 3> {
+        let mut list: heapless::Vec<Candidate, 3> = list
+            .iter()
             .map(|&(byte, score)| Candidate {
                 parent: 0,
                 byte,
                 score,
             })
-            .collect()
-    }
-
-    fn bytes(list: &[Candidate]) -> heapless::Vec<u8, 3> {
+            .collect();
+        let new = Candidate {
+            parent: 0,
+            byte,
+            score,
+        };
+        if may_enter(&list, 3, score) {
+            insert_candidate(&mut list, 3, new, |_| &b""[..]);
+        }
         list.iter().map(|c| c.byte).collect()
     }
 
     #[test]
     fn a_second_case_gives_way_to_a_different_word_unless_much_likelier() {
-        let root = |_: usize| &b""[..];
         // E beside F, D and a second case f: f leaves, though E scores below it.
-        let mut list = after_root(&[(b'F', -3.3), (b'D', -3.35), (b'f', -3.5)]);
-        let new = Candidate {
-            parent: 0,
-            byte: b'E',
-            score: -3.6,
-        };
-        assert!(may_enter(&list, 3, new.score));
-        insert_candidate(&mut list, 3, new, root);
-        assert_eq!(bytes(&list), b"FDE"[..]);
-        // T, a second case of t, more than SECOND_CASE_COST likelier than V: V leaves.
-        let mut list = after_root(&[(b't', -2.7), (b'U', -8.0), (b'V', -9.0)]);
-        let new = Candidate {
-            parent: 0,
-            byte: b'T',
-            score: -3.2,
-        };
-        insert_candidate(&mut list, 3, new, root);
-        assert_eq!(bytes(&list), b"tTU"[..]);
-        // ... but not within it: U stays.
-        let mut list = after_root(&[(b't', -2.7), (b'U', -4.0), (b'V', -4.1)]);
-        let new = Candidate {
-            parent: 0,
-            byte: b'T',
-            score: -3.2,
-        };
-        insert_candidate(&mut list, 3, new, root);
-        assert_eq!(bytes(&list), b"tUV"[..]);
+        let list = [(b'F', -3.3), (b'D', -3.35), (b'f', -3.5)];
+        assert_eq!(after_offering(&list, (b'E', -3.6)), b"FDE"[..]);
+        // T, a second case of t, more than SECOND_CASE_COST likelier than V: V leaves...
+        let list = [(b't', -2.7), (b'U', -8.0), (b'V', -9.0)];
+        assert_eq!(after_offering(&list, (b'T', -3.2)), b"tTU"[..]);
+        // ... but not within it: U and V stay.
+        let list = [(b't', -2.7), (b'U', -4.0), (b'V', -4.1)];
+        assert_eq!(after_offering(&list, (b'T', -3.2)), b"tUV"[..]);
     }
 
     #[test]
