@@ -327,21 +327,10 @@ impl Role {
     // Evaluated at compile time: an index out of range fails the build.
     #[allow(clippy::indexing_slicing)]
     pub const ALL: [Role; 3 + TENSORS_PER_BLOCK] = {
-        let mut all = [
-            Role::ByteEmbed,
-            Role::FinalNorm,
-            Role::Head,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-            Role::Norm,
-        ];
+        let mut all = [Role::Norm; 3 + TENSORS_PER_BLOCK];
+        all[0] = Role::ByteEmbed;
+        all[1] = Role::FinalNorm;
+        all[2] = Role::Head;
         let mut i = 0;
         while i < TENSORS_PER_BLOCK {
             all[3 + i] = Role::BLOCK_ROLES[i];
