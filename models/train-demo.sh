@@ -7,7 +7,7 @@ cd "$(dirname "$0")/.."
 python3 data/general/prepare.py           # the general corpus, mixed in so English is not forgotten
 python3 data/scenario/generate.py         # the invented scenario text (committed; regenerated identically)
 cargo build --release -p inkling-host
-inkling=target/release/inkling
+inkling="${CARGO_TARGET_DIR:-target}/release/inkling"
 g=data/general/train
 # The scenario text (420 KB) weighted so that about half the windows drawn are pager messages;
 # the other half is the base model's own corpus, at a third of its peak learning rate.
