@@ -412,9 +412,14 @@ impl<const K: usize> Search<K> {
             } else {
                 f32::NEG_INFINITY
             };
+            let logprob = blend.blend(model, f32::from(learned.count) / total);
+            if logprob == f32::NEG_INFINITY {
+                // Impossible under the blend (a weight of 0 and no model score).
+                continue;
+            }
             let suggestion = Suggestion {
                 text: learned.text.clone(),
-                logprob: blend.blend(model, f32::from(learned.count) / total),
+                logprob,
                 finished: true,
             };
             insert_ranked(&mut list, width, suggestion, |x| x.logprob);
