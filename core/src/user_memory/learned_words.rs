@@ -143,7 +143,10 @@ pub enum Learned {
 ///   equals), whatever its count: the memory is a cache of the user's recent words.
 /// - **Clock.** Each learned word advances the clock by one; at `u32::MAX` it stops, and
 ///   from then on eviction picks the first of the words last used at that time.
-/// - **Clearing** is one call, [`clear`](UserMemory::clear).
+/// - **Clearing** is one call, [`clear`](UserMemory::clear) (and
+///   [`FlashStore::clear`](crate::user_memory::FlashStore::clear) for the copy in flash).
+/// - **Flash.** [`FlashStore`](crate::user_memory::FlashStore) keeps the memory across
+///   reboots.
 ///
 /// The memory holds what the user typed: names, places, perhaps codes. Clear it when the
 /// device changes hands.
@@ -162,8 +165,8 @@ pub enum Learned {
 /// ```
 #[derive(Debug, Clone)]
 pub struct UserMemory<const N: usize> {
-    words: heapless::Vec<LearnedWord, N>,
-    clock: u32,
+    pub(crate) words: heapless::Vec<LearnedWord, N>,
+    pub(crate) clock: u32,
     /// Whether the memory was cleared since the flash store last saw it.
     pub(crate) cleared: bool,
 }
@@ -268,7 +271,9 @@ impl<const N: usize> UserMemory<N> {
             .count()
     }
 
-    /// Forgets every word.
+    /// Forgets every word (the copy in flash with the next
+    /// [`FlashStore::save`](crate::user_memory::FlashStore::save), or at once with
+    /// [`FlashStore::clear`](crate::user_memory::FlashStore::clear)).
     ///
     /// ```
     /// # use inkling_core::{user_memory::UserMemory, session::WordList};
