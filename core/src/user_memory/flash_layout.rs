@@ -51,6 +51,9 @@
 //!
 //! ## Writing
 //! - A learned word writes its slot's record (one item): that is the commit of that word.
+//!   Records are appended to space that reads as erased and are not read back: on flash
+//!   damaged by something other than the store and power cuts (stray bits in that space), a
+//!   record may be spoilt as it is written; the next load skips it.
 //! - Clearing writes a header with the generation plus one: one item, so a clear is whole
 //!   or not at all; the older words stay in flash, ignored, until their slots are written
 //!   again or their pages erased.
