@@ -317,9 +317,28 @@ impl<const K: usize> Search<K> {
         budget: usize,
         mut taken: usize,
     ) -> Result<(), Error> {
-        while let Some(learned) = self.learned.get_mut(self.learned_next) {
+        while self.learned_next < self.learned.len() {
+            let floor = self.floor(options, self.learned_next);
+            let Some(learned) = self.learned.get_mut(self.learned_next) else {
+                break;
+            };
             let rest = learned.text.get(prefix..).unwrap_or(&[]);
             if learned.scored || rest.is_empty() {
+                self.learned_next += 1;
+                continue;
+            }
+            // The sum so far bounds the word's model score from above (every byte more
+            // adds a log-probability <= 0): a word whose best blend cannot reach the results
+            // is not stepped further, and counts as unscored.
+            let upper = options.memory.map_or(f32::INFINITY, |blend| {
+                blend.blend(
+                    learned.logprob,
+                    f32::from(learned.count) / self.cache_total as f32,
+                )
+            });
+            if upper < floor {
+                learned.logprob = f32::NEG_INFINITY;
+                learned.scored = true;
                 self.learned_next += 1;
                 continue;
             }
@@ -357,6 +376,39 @@ impl<const K: usize> Search<K> {
         }
         self.running = false;
         Ok(())
+    }
+
+    /// The lowest blend a word needs to enter the results: the `width`-th best of what the
+    /// others are sure to get (the model's finished words and the learned words scored, or
+    /// for a learned word not yet scored its smallest blend, `λ · P_cache`), leaving out the
+    /// learned word `skip`; `−∞` while fewer than `width` are known.
+    fn floor(&self, options: &SearchOptions<'_>, skip: usize) -> f32 {
+        let Some(blend) = &options.memory else {
+            return f32::NEG_INFINITY;
+        };
+        let total = self.cache_total as f32;
+        let mut best: heapless::Vec<f32, K> = heapless::Vec::new();
+        let mut add = |value: f32| insert_ranked(&mut best, options.width, value, |&v| v);
+        for s in self.out.list.iter().filter(|s| s.finished) {
+            if !self.learned.iter().any(|l| l.text == s.text) {
+                let count = crate::user_memory::learned_words::count_in(blend.words, &s.text);
+                add(blend.blend(s.logprob, f32::from(count) / total));
+            }
+        }
+        for (i, l) in self.learned.iter().enumerate() {
+            if i != skip {
+                let model = if l.scored {
+                    l.logprob
+                } else {
+                    f32::NEG_INFINITY
+                };
+                add(blend.blend(model, f32::from(l.count) / total));
+            }
+        }
+        if best.len() < options.width {
+            return f32::NEG_INFINITY;
+        }
+        best.last().copied().unwrap_or(f32::NEG_INFINITY)
     }
 
     /// The results so far, best first: the finished words, then (if the search has not
