@@ -344,6 +344,20 @@ impl<const N: usize> UserMemory<N> {
     }
 }
 
+/// Bytes of RAM a [`UserMemory`] of `words` words takes, for a size known only at run time
+/// (equal to [`UserMemory::<N>::RAM_BYTES`](UserMemory::RAM_BYTES) for `N = words`).
+///
+/// ```
+/// use inkling_core::user_memory::{learned_words::ram_bytes_for, UserMemory};
+/// assert_eq!(ram_bytes_for(256), UserMemory::<256>::RAM_BYTES);
+/// ```
+pub const fn ram_bytes_for(words: usize) -> usize {
+    let align = core::mem::align_of::<UserMemory<0>>();
+    let unaligned =
+        core::mem::size_of::<UserMemory<0>>() + words * core::mem::size_of::<LearnedWord>();
+    unaligned.div_ceil(align) * align
+}
+
 /// The count of `word` among `words` (0 if absent).
 pub(crate) fn count_in(words: &[LearnedWord], word: &[u8]) -> u16 {
     words
@@ -408,6 +422,19 @@ mod tests {
         assert_eq!(
             m.learn("\u{e9}t\u{e9}".as_bytes(), &none),
             Learned::Added { slot: 1 }
+        );
+    }
+
+    #[test]
+    fn the_ram_formula_is_the_size_of_the_type() {
+        // The compiler's layout (core::mem::size_of) is the reference.
+        assert_eq!(ram_bytes_for(0), core::mem::size_of::<UserMemory<0>>());
+        assert_eq!(ram_bytes_for(1), core::mem::size_of::<UserMemory<1>>());
+        assert_eq!(ram_bytes_for(7), core::mem::size_of::<UserMemory<7>>());
+        assert_eq!(ram_bytes_for(128), core::mem::size_of::<UserMemory<128>>());
+        assert_eq!(
+            ram_bytes_for(1000),
+            core::mem::size_of::<UserMemory<1000>>()
         );
     }
 
