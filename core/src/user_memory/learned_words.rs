@@ -126,7 +126,7 @@ pub enum Learned {
     /// The deny list holds the word (in some case): not stored.
     Denied,
     /// Not stored: shorter than [`MIN_LEARNED_LEN`] or longer than
-    /// [`MAX_WORD_LEN`](crate::session::MAX_WORD_LEN) bytes, holding a word boundary byte,
+    /// [`MAX_WORD_LEN`] bytes, holding a word boundary byte,
     /// or not well-formed UTF-8.
     NotAWord,
 }
@@ -178,7 +178,7 @@ impl<const N: usize> Default for UserMemory<N> {
 }
 
 impl<const N: usize> UserMemory<N> {
-    /// Bytes of RAM the memory takes: `N` words of [`MAX_WORD_LEN`](crate::session::MAX_WORD_LEN)
+    /// Bytes of RAM the memory takes: `N` words of [`MAX_WORD_LEN`]
     /// bytes with their counts and times, and a few words of bookkeeping.
     ///
     /// ```
@@ -252,7 +252,7 @@ impl<const N: usize> UserMemory<N> {
     }
 
     /// Learns every word of `text` in order (split at word boundaries, see
-    /// [`is_boundary`](crate::session::is_boundary)), e.g. a message when it is sent; returns
+    /// [`is_boundary`]), e.g. a message when it is sent; returns
     /// how many were stored.
     ///
     /// ```
