@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# The short, bounded fuzz run: builds the four libFuzzer targets of fuzz/ and runs each for
+# The short, bounded fuzz run: builds the five libFuzzer targets of fuzz/ and runs each for
 # FUZZ_SECONDS seconds (default 15), starting from the seeds in fuzz/seeds/<target>/.
 #
 # Inputs that make a target fail are copied to tests/fuzz-regressions/<target>/, where the
@@ -17,11 +17,11 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 
 seconds=${FUZZ_SECONDS:-15}
-targets=(image_reader engine_run session_edits checkpoint_loader)
+targets=(image_reader engine_run session_edits checkpoint_loader memory_flash)
 # Longest input per target: room for the larger seed images; edit lists stay short so that
 # each run is quick (a long list only repeats what short ones do).
 declare -A max_len=([image_reader]=16384 [engine_run]=16384 [session_edits]=1024
-  [checkpoint_loader]=16384)
+  [checkpoint_loader]=16384 [memory_flash]=1024)
 say() { printf '\n== %s\n' "$*"; }
 
 if [[ "$seconds" == 0 ]]; then

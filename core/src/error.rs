@@ -91,6 +91,53 @@ pub enum Error {
         /// The byte given.
         byte: u8,
     },
+    /// The user memory's flash store failed (see
+    /// [`FlashStore`](crate::user_memory::FlashStore)).
+    MemoryFlash {
+        /// What went wrong.
+        problem: FlashProblem,
+    },
+}
+
+/// What went wrong in the user memory's flash store (see [`Error::MemoryFlash`]).
+///
+/// ```
+/// use inkling_core::{Error, error::FlashProblem};
+/// let err = Error::MemoryFlash { problem: FlashProblem::Full };
+/// assert!(err.to_string().contains("user memory flash"));
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum FlashProblem {
+    /// The flash range does not start and end on page boundaries, holds fewer than two
+    /// pages, or its pages or words do not suit the store.
+    BadRange,
+    /// The flash driver reported an error (a read, write or erase failed).
+    Driver,
+    /// The range holds no room for another record, even after reclaiming old pages.
+    Full,
+    /// The store found damaged contents it could not repair; erase the range to start anew.
+    Corrupted,
+    /// A record could not be encoded or decoded.
+    Record,
+    /// An operation did not complete (see the store's docs: it cannot happen with a
+    /// blocking flash).
+    Unfinished,
+}
+
+impl fmt::Display for FlashProblem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            FlashProblem::BadRange => {
+                "range not on page boundaries, under two pages, or pages or words unsuited"
+            }
+            FlashProblem::Driver => "the flash driver failed a read, write or erase",
+            FlashProblem::Full => "no room for another record",
+            FlashProblem::Corrupted => "damaged contents that could not be repaired",
+            FlashProblem::Record => "a record could not be encoded or decoded",
+            FlashProblem::Unfinished => "an operation did not complete",
+        })
+    }
 }
 
 /// What is wrong with a tensor table entry (see [`Error::BadTensor`]).
@@ -197,6 +244,7 @@ impl fmt::Display for Error {
                 }
                 f.write_str(" is not a letter key of the keypad layout")
             }
+            Error::MemoryFlash { problem } => write!(f, "user memory flash store: {problem}"),
         }
     }
 }

@@ -2,7 +2,8 @@
 //!
 //! This crate is `#![no_std]` and never allocates. It reads a packed int8 model image
 //! ([`image`]), runs a byte-level selective state-space recurrence on it ([`engine`]) and,
-//! on top, keeps a typing session that offers completions ([`session`]).
+//! on top, keeps a typing session that offers completions ([`session`]), which may learn
+//! its user's words ([`user_memory`]).
 //!
 //! The caller owns every byte: [`Model`] borrows the image (it can stay in flash), and the
 //! engine state and scratch live in buffers the caller provides, sized by [`Dims`].
@@ -36,6 +37,7 @@ pub mod engine;
 pub mod error;
 pub mod image;
 pub mod session;
+pub mod user_memory;
 
 pub use engine::buffers::{EngineBuffers, Scratch};
 pub use engine::engine::Engine;

@@ -12,7 +12,8 @@ use std::path::Path;
 use inkling_core::image::checksum::crc32;
 use inkling_core::image::example::tiny_image;
 use inkling_core::image::format::{Role, CRC_LEN, VOCAB};
-use inkling_core::session::{SearchOptions, Session, MAX_WORD_LEN};
+use inkling_core::session::{SearchOptions, Session, WordList, MAX_WORD_LEN};
+use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
 use inkling_core::{Engine, Error, KeyMap, Model, Scratch, Suggestions};
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 
@@ -23,11 +24,12 @@ pub type Body = fn(&[u8]);
 
 /// The fuzz targets by name (the names of the binaries in `fuzz/` and of the folders under
 /// `tests/fuzz-regressions/`), with their bodies.
-pub const TARGETS: [(&str, Body); 4] = [
+pub const TARGETS: [(&str, Body); 5] = [
     ("image_reader", image_reader),
     ("engine_run", engine_run),
     ("session_edits", session_edits),
     ("checkpoint_loader", checkpoint_loader),
+    ("memory_flash", memory_flash),
 ];
 
 /// Beams of the sessions the bodies run.
@@ -313,3 +315,61 @@ fn bits(values: &[f32]) -> Vec<u32> {
 
 /// The session every body runs.
 type FuzzSession<'b> = Session<'b, Model<'b>, BEAMS, HISTORY>;
+
+/// Pages of the flash the `memory_flash` body reads.
+pub const MEMORY_FLASH_PAGES: usize = 4;
+/// Bytes of a page of that flash.
+pub const MEMORY_FLASH_PAGE: usize = 256;
+/// Words of the memory it reads into.
+const MEMORY_WORDS: usize = 16;
+
+/// Target `memory_flash`: the user memory's flash store reading damaged flash. The bytes are
+/// the flash contents ([`MEMORY_FLASH_PAGES`] pages of [`MEMORY_FLASH_PAGE`] bytes; short
+/// inputs are padded with erased bytes). Loading gives an error or a memory of distinct,
+/// well-formed words within capacity; a memory that loads takes a new word and is saved,
+/// and reading the flash again gives the same guarantee. (That the word saved is read back
+/// is promised only for flash that nothing but the store and power cuts wrote, which the
+/// power-cut test checks: the store appends to space it finds erased-looking, and damage
+/// inside it can spoil the new record, which the next load then skips.)
+pub fn memory_flash(data: &[u8]) {
+    let len = MEMORY_FLASH_PAGES * MEMORY_FLASH_PAGE;
+    let mut bytes = vec![0xFFu8; len];
+    for (b, &d) in bytes.iter_mut().zip(data) {
+        *b = d;
+    }
+    let flash = RamFlash::<MEMORY_FLASH_PAGE>::new(&mut bytes);
+    let mut store = FlashStore::new(flash, 0..len as u32).expect("a range of whole pages");
+    let mut memory = UserMemory::<MEMORY_WORDS>::new();
+    if !loads_well_formed(&mut store, &mut memory) {
+        return;
+    }
+    memory.learn(b"afterwards", &WordList::EMPTY);
+    if store.save(&mut memory).is_err() {
+        return;
+    }
+    let mut again = FlashStore::new(store.into_flash(), 0..len as u32).expect("same range");
+    loads_well_formed(&mut again, &mut UserMemory::<MEMORY_WORDS>::new());
+}
+
+/// Loads `memory` from `store`: on an error the memory is empty, otherwise its words are
+/// distinct, well-formed and within capacity. Whether it loaded.
+fn loads_well_formed(
+    store: &mut FlashStore<RamFlash<'_, MEMORY_FLASH_PAGE>>,
+    memory: &mut UserMemory<MEMORY_WORDS>,
+) -> bool {
+    if store.load(memory).is_err() {
+        assert!(memory.is_empty(), "a failed load leaves the memory empty");
+        return false;
+    }
+    let words = memory.words();
+    assert!(words.len() <= MEMORY_WORDS);
+    for (i, w) in words.iter().enumerate() {
+        assert!(w.count() > 0 && std::str::from_utf8(w.text()).is_ok());
+        assert!((2..=MAX_WORD_LEN).contains(&w.text().len()));
+        assert!(
+            words[..i].iter().all(|v| v.text() != w.text()),
+            "a word twice"
+        );
+    }
+    true
+}

@@ -78,3 +78,42 @@ fn inspect_figures_match_the_engine() {
         );
     }
 }
+
+#[test]
+fn inspect_reports_the_user_memory_that_a_store_really_needs() {
+    use inkling_core::session::WordList;
+    use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
+    let dir = tempfile::tempdir().unwrap();
+    let (_, image) = preset_model(Preset::Tiny, 3, dir.path());
+    let path = dir.path().join("tiny.inkl");
+    std::fs::write(&path, &image).unwrap();
+    let report = run_json([
+        "inspect".as_ref(),
+        path.as_os_str(),
+        "--memory-words".as_ref(),
+        "256".as_ref(),
+        "--json".as_ref(),
+    ]);
+    let memory = &report["user_memory"];
+    // RAM: the compiler's layout of the type (core::mem::size_of).
+    assert_eq!(
+        memory["ram_bytes"].as_u64().unwrap() as usize,
+        core::mem::size_of::<UserMemory<256>>()
+    );
+    // Flash: a store of that size holds 256 words of the longest kind, each learned and
+    // saved, rewritten many times over, without running out of room.
+    let flash = memory["flash_bytes"].as_u64().unwrap() as usize;
+    assert_eq!(flash % 4096, 0);
+    let mut bytes = vec![0xFFu8; flash];
+    let mut store = FlashStore::new(RamFlash::<4096>::new(&mut bytes), 0..flash as u32).unwrap();
+    let mut words = Box::new(UserMemory::<256>::new());
+    store.load(&mut words).unwrap();
+    for round in 0..4u32 {
+        for i in 0..256u32 {
+            let word = format!("{:a<32}", format!("w{round}x{i}"));
+            words.learn(word.as_bytes(), &WordList::EMPTY);
+            store.save(&mut words).unwrap();
+        }
+    }
+    assert_eq!(words.len(), 256);
+}

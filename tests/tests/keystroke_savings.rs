@@ -135,3 +135,60 @@ fn eval_savings_refuses_a_missing_or_cheating_baseline() {
         assert!(stderr.contains("--baseline-corpus"), "{stderr}");
     }
 }
+
+#[test]
+fn a_learning_device_offers_a_repeated_name_counted_by_hand() {
+    // "Zorvath Zorvath Zorvath " is 24 bytes. A memory that starts empty learns "Zorvath"
+    // when its first space is typed; from then on it is the only learned word, so its cache
+    // probability at a word start is 1 and its blend at least λ = 0.4, above anything a
+    // random model gives a whole word of three letters or more: the writer types the
+    // first "Zorvath" (7 keys) and takes the next two at their first look (1 key each),
+    // with the 3 spaces typed: 12 keys, KS = 12/24 (the definition of Trnka & McCoy 2008).
+    use inkling_core::image::example::tiny_image;
+    use inkling_core::Model;
+    use inkling_host::keystroke_savings::{Learning, ModelPredictor, SessionMemory};
+    let image = tiny_image();
+    let model = Model::from_bytes(&image).unwrap();
+    let mut buffers = SessionMemory::new(model.dims(), 3);
+    let session = buffers.session::<_, 3>(model).unwrap();
+    let options = inkling_core::session::SearchOptions::new(3);
+    let mut predictor = ModelPredictor::new(session, options).learning(Learning::new(0.4));
+    let text = b"Zorvath Zorvath Zorvath ";
+    let keys = simulate(text, 3, &mut predictor).unwrap();
+    assert_eq!((keys.bytes, keys.keys, keys.taken), (24, 12, 2));
+    assert_eq!(keys.savings(true, false), 0.5);
+    assert_eq!(predictor.learned_words(), 1);
+}
+
+#[test]
+fn eval_learn_reports_with_learning_beside_model() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    let image = random_image(dir.path());
+    let text_path = repo_file("data/scenario/logbook-heldout.txt");
+    let corpus_path = repo_file("data/scenario/train.txt");
+    let report = run_json([
+        "eval".as_ref(),
+        image.as_os_str(),
+        "--text".as_ref(),
+        text_path.as_os_str(),
+        "--savings".as_ref(),
+        "--learn".as_ref(),
+        "--baseline-corpus".as_ref(),
+        corpus_path.as_os_str(),
+        "--max-bytes".as_ref(),
+        "600".as_ref(),
+        "--json".as_ref(),
+    ]);
+    let ks = &report["keystroke_savings"];
+    let bytes = ks["bytes"].as_u64().unwrap() as f64;
+    let learned = ks["with_learning"]
+        .as_f64()
+        .expect("with_learning beside model");
+    let keys = ks["learning"]["keys"].as_u64().unwrap() as f64;
+    assert_eq!(learned, (bytes - keys) / bytes);
+    assert!(ks["model"].as_f64().is_some());
+    assert_eq!(ks["learning"]["cache_weight"].as_f64(), Some(0.4f32 as f64));
+    // The logbook repeats its names: the memory holds words, at most its capacity.
+    let words = ks["learning"]["words_learned"].as_u64().unwrap();
+    assert!(words > 10 && words <= ks["learning"]["memory_capacity_words"].as_u64().unwrap());
+}

@@ -33,6 +33,11 @@
 //! parent's slot and the other children copy the parent's state into slots freed by parents
 //! with no child chosen (the root's state is never written: its children get copies). Every
 //! copy is made before any step of the round, since a step overwrites its slot.
+//!
+//! With a user memory ([`SearchOptions::memory`]), the learned words that start with the
+//! word typed are blended in as a cache model once the rounds end; those the search did
+//! not finish are scored by stepping their remaining bytes in the first beam slot, within
+//! the same step budget (see [`cache_blend`](crate::user_memory::cache_blend)).
 
 use super::beam_slots::Slots;
 use super::keypad::KeyMap;
@@ -44,6 +49,7 @@ use super::word_buffer::{Word, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
 use crate::engine::weights::Weights;
 use crate::error::Error;
+use crate::user_memory::CacheBlend;
 
 /// What the searched words look like after the bytes already typed.
 #[derive(Debug, Clone, Copy)]
@@ -118,6 +124,21 @@ pub(crate) struct Candidate {
     score: f32,
 }
 
+/// A learned word a search offers from the user memory, with its model score once known.
+#[derive(Debug, Clone)]
+pub(crate) struct LearnedCandidate {
+    text: Word,
+    count: u16,
+    last_used: u32,
+    /// The model's natural-log probability of the rest of the word and a boundary: the sum
+    /// so far while `stepped` bytes of the rest have been fed.
+    logprob: f32,
+    /// Bytes of the rest of the word fed through the model so far.
+    stepped: usize,
+    /// Whether `logprob` is complete.
+    scored: bool,
+}
+
 /// A search in progress, kept between calls so that it can run in parts: the beams of the
 /// round not yet stepped, the parents and candidates of the round so far, the results and
 /// the beams the step budget stopped. Running it in parts gives exactly what running it at
@@ -134,6 +155,17 @@ pub(crate) struct Search<const K: usize> {
     at_root: bool,
     /// Whether the search has more to do (false for a search never started).
     running: bool,
+    /// Whether the rounds of beams have ended (what is left is scoring learned words).
+    beams_done: bool,
+    /// The slot of the root's state.
+    root_slot: usize,
+    /// The learned words offered, the `width` most frequent that start with the word typed
+    /// (empty without a memory).
+    learned: heapless::Vec<LearnedCandidate, K>,
+    /// The learned word being scored.
+    learned_next: usize,
+    /// `Σ c(v)` over the learned words that start with the word typed: 0 means no blend.
+    cache_total: u32,
 }
 
 impl<const K: usize> Search<K> {
@@ -157,8 +189,13 @@ impl<const K: usize> Search<K> {
         let mut search = Search {
             at_root: true,
             running: options.width > 0,
+            root_slot,
             ..Search::default()
         };
+        if let Some(blend) = &options.memory {
+            search.cache_total = blend.prefix_total(word);
+            search.learned = learned_candidates(blend, word, options);
+        }
         let _ = search.pending.push(Beam {
             text,
             score: 0.0,
@@ -189,7 +226,7 @@ impl<const K: usize> Search<K> {
     ) -> Result<(), Error> {
         let prefix = root.word.len();
         let mut taken = 0usize;
-        while self.running {
+        while self.running && !self.beams_done {
             // Each beam is stepped and its extensions scored at once, so no beam keeps
             // logits; a beam that can no longer finish among the results is dropped unstepped.
             while let Some(beam) = self.pending.get(self.next).cloned() {
@@ -243,7 +280,7 @@ impl<const K: usize> Search<K> {
             self.candidates
                 .retain(|c| c.score >= best - round_margin && is_open(list, options, c.score));
             if self.out.cut_short || self.candidates.is_empty() {
-                self.running = false;
+                self.end_rounds(root.logits, prefix);
                 break;
             }
             self.pending = assign_slots(&self.parents, &self.candidates, slots, first_beam);
@@ -251,13 +288,224 @@ impl<const K: usize> Search<K> {
             self.parents.clear();
             self.candidates.clear();
         }
+        if self.running {
+            self.score_learned(
+                weights, scratch, slots, prefix, first_beam, options, budget, taken,
+            )?;
+        }
         Ok(())
+    }
+
+    /// The rounds of beams have ended: learned words the search finished take its score,
+    /// the others start from the root's logits (their first byte needs no step); the search
+    /// goes on only if some are left to score and the step budget is not spent.
+    fn end_rounds(&mut self, root_logits: &[f32], prefix: usize) {
+        self.beams_done = true;
+        let norm = LogSoftmax::of(root_logits);
+        for learned in self.learned.iter_mut() {
+            if let Some(found) = self.out.list.iter().find(|s| s.text == learned.text) {
+                learned.logprob = found.logprob;
+                learned.scored = true;
+            } else {
+                let first = learned.text.get(prefix).copied().unwrap_or(0);
+                let logit = root_logits.get(usize::from(first)).copied();
+                learned.logprob = logit.map_or(f32::NEG_INFINITY, |l| norm.log_prob(l));
+            }
+        }
+        self.running = !self.out.cut_short && self.learned.iter().any(|l| !l.scored);
+    }
+
+    /// Scores the learned words left, one engine step per byte of their rest, in the first
+    /// beam slot (free once the rounds have ended), within `budget` more steps and
+    /// `options.max_steps` in all.
+    #[allow(clippy::too_many_arguments)]
+    fn score_learned<W: Weights + ?Sized>(
+        &mut self,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        slots: &mut Slots<'_>,
+        prefix: usize,
+        first_beam: usize,
+        options: &SearchOptions<'_>,
+        budget: usize,
+        mut taken: usize,
+    ) -> Result<(), Error> {
+        while self.learned_next < self.learned.len() {
+            let floor = self.floor(options, self.learned_next);
+            let Some(learned) = self.learned.get_mut(self.learned_next) else {
+                break;
+            };
+            let rest = learned.text.get(prefix..).unwrap_or(&[]);
+            if learned.scored || rest.is_empty() {
+                self.learned_next += 1;
+                continue;
+            }
+            // The sum so far bounds the word's model score from above (every byte more
+            // adds a log-probability <= 0): a word whose best blend cannot reach the results
+            // is not stepped further, and counts as unscored.
+            let upper = options.memory.map_or(f32::INFINITY, |blend| {
+                blend.blend(
+                    learned.logprob,
+                    f32::from(learned.count) / self.cache_total as f32,
+                )
+            });
+            if upper < floor {
+                learned.logprob = f32::NEG_INFINITY;
+                learned.scored = true;
+                self.learned_next += 1;
+                continue;
+            }
+            if self.out.steps >= options.max_steps {
+                self.out.cut_short = true;
+                self.running = false;
+                return Ok(());
+            }
+            if taken >= budget {
+                return Ok(());
+            }
+            if learned.stepped == 0 {
+                slots.copy_state(self.root_slot, first_beam);
+            }
+            let byte = rest.get(learned.stepped).copied().unwrap_or(0);
+            self.out.steps += 1;
+            taken += 1;
+            let logits = slots.feed(first_beam, weights, scratch, &[byte])?;
+            let norm = LogSoftmax::of(logits);
+            learned.stepped += 1;
+            learned.logprob += match rest.get(learned.stepped) {
+                Some(&next) => logits
+                    .get(usize::from(next))
+                    .map_or(f32::NEG_INFINITY, |&l| norm.log_prob(l)),
+                None => (0..=255u8)
+                    .zip(logits)
+                    .filter(|&(b, _)| is_boundary(b))
+                    .map(|(_, &l)| norm.log_prob(l))
+                    .fold(f32::NEG_INFINITY, f32::max),
+            };
+            if learned.stepped == rest.len() {
+                learned.scored = true;
+                self.learned_next += 1;
+            }
+        }
+        self.running = false;
+        Ok(())
+    }
+
+    /// The lowest blend a word needs to enter the results: the `width`-th best of what the
+    /// others are sure to get (the model's finished words and the learned words scored, or
+    /// for a learned word not yet scored its smallest blend, `λ · P_cache`), leaving out the
+    /// learned word `skip`; `−∞` while fewer than `width` are known.
+    fn floor(&self, options: &SearchOptions<'_>, skip: usize) -> f32 {
+        let Some(blend) = &options.memory else {
+            return f32::NEG_INFINITY;
+        };
+        let total = self.cache_total as f32;
+        let mut best: heapless::Vec<f32, K> = heapless::Vec::new();
+        let mut add = |value: f32| insert_ranked(&mut best, options.width, value, |&v| v);
+        for s in self.out.list.iter().filter(|s| s.finished) {
+            if !self.learned.iter().any(|l| l.text == s.text) {
+                let count = crate::user_memory::learned_words::count_in(blend.words, &s.text);
+                add(blend.blend(s.logprob, f32::from(count) / total));
+            }
+        }
+        for (i, l) in self.learned.iter().enumerate() {
+            if i != skip {
+                let model = if l.scored {
+                    l.logprob
+                } else {
+                    f32::NEG_INFINITY
+                };
+                add(blend.blend(model, f32::from(l.count) / total));
+            }
+        }
+        if best.len() < options.width {
+            return f32::NEG_INFINITY;
+        }
+        best.last().copied().unwrap_or(f32::NEG_INFINITY)
     }
 
     /// The results so far, best first: the finished words, then (if the search has not
     /// ended, or its step budget stopped it) as many of the best beams not yet stepped as fit,
     /// flagged unfinished.
     pub(crate) fn result(&self, options: &SearchOptions<'_>) -> Suggestions<K> {
+        let plain = self.model_result(options);
+        match &options.memory {
+            Some(blend) if self.cache_total > 0 => self.blended(plain, blend, options.width),
+            _ => plain,
+        }
+    }
+
+    /// The results ranked by the cache model: the model's finished words and the learned
+    /// words by their blended probability, then the model's unfinished beams if room is
+    /// left. Every `logprob` is the natural log of the blend.
+    fn blended(
+        &self,
+        plain: Suggestions<K>,
+        blend: &CacheBlend<'_>,
+        width: usize,
+    ) -> Suggestions<K> {
+        let total = self.cache_total as f32;
+        let cache = |text: &[u8]| {
+            f32::from(crate::user_memory::learned_words::count_in(
+                blend.words,
+                text,
+            )) / total
+        };
+        let mut list: heapless::Vec<Suggestion, K> = heapless::Vec::new();
+        for s in plain.list.iter().filter(|s| s.finished) {
+            let logprob = blend.blend(s.logprob, cache(&s.text));
+            insert_ranked(
+                &mut list,
+                width,
+                Suggestion {
+                    logprob,
+                    ..s.clone()
+                },
+                |x| x.logprob,
+            );
+        }
+        for learned in &self.learned {
+            if plain
+                .list
+                .iter()
+                .any(|s| s.finished && s.text == learned.text)
+            {
+                continue;
+            }
+            let model = if learned.scored {
+                learned.logprob
+            } else {
+                f32::NEG_INFINITY
+            };
+            let logprob = blend.blend(model, f32::from(learned.count) / total);
+            if logprob == f32::NEG_INFINITY {
+                // Impossible under the blend (a weight of 0 and no model score).
+                continue;
+            }
+            let suggestion = Suggestion {
+                text: learned.text.clone(),
+                logprob,
+                finished: true,
+            };
+            insert_ranked(&mut list, width, suggestion, |x| x.logprob);
+        }
+        for s in plain.list.iter().filter(|s| !s.finished) {
+            if list.len() >= width {
+                break;
+            }
+            if !list.iter().any(|x| x.text == s.text) {
+                let logprob = blend.blend(s.logprob, 0.0);
+                let _ = list.push(Suggestion {
+                    logprob,
+                    ..s.clone()
+                });
+            }
+        }
+        Suggestions { list, ..plain }
+    }
+
+    /// The model's results alone (the search without a memory).
+    fn model_result(&self, options: &SearchOptions<'_>) -> Suggestions<K> {
         let mut out = self.out.clone();
         out.cut_short |= self.running;
         let waiting = self.pending.get(self.next..).unwrap_or(&[]);
@@ -276,6 +524,46 @@ impl<const K: usize> Search<K> {
         }
         out
     }
+}
+
+/// The learned words a search offers after `word`: those that start with it, add at least
+/// one byte and pass the filter, the `options.width` most frequent (the most recently used
+/// first among equals), model scores unknown.
+fn learned_candidates<const K: usize>(
+    blend: &CacheBlend<'_>,
+    word: &[u8],
+    options: &SearchOptions<'_>,
+) -> heapless::Vec<LearnedCandidate, K> {
+    let mut chosen: heapless::Vec<LearnedCandidate, K> = heapless::Vec::new();
+    let rank = |c: &LearnedCandidate| (c.count, c.last_used);
+    for w in blend.words {
+        let text = w.text();
+        if text.len() <= word.len() || !text.starts_with(word) || !options.filter.offers(text) {
+            continue;
+        }
+        let Ok(text) = Word::from_slice(text) else {
+            continue;
+        };
+        let candidate = LearnedCandidate {
+            text,
+            count: w.count(),
+            last_used: w.last_used(),
+            logprob: f32::NEG_INFINITY,
+            stepped: 0,
+            scored: false,
+        };
+        let at = chosen
+            .iter()
+            .position(|c| rank(c) < rank(&candidate))
+            .unwrap_or(chosen.len());
+        if at < options.width {
+            if chosen.len() >= options.width {
+                chosen.pop();
+            }
+            let _ = chosen.insert(at, candidate);
+        }
+    }
+    chosen
 }
 
 /// Whether a word scored `score` so far may still finish among the results: it must beat

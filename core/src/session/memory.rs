@@ -1,6 +1,6 @@
 //! The RAM one session needs, known before anything is flashed.
 
-use super::beam_search::{Beam, Candidate};
+use super::beam_search::{Beam, Candidate, LearnedCandidate};
 use super::beam_slots::Slots;
 use super::suggestion::Suggestion;
 use super::word_buffer::WordBuffer;
@@ -28,7 +28,8 @@ impl Dims {
     /// - the engine scratch, [`scratch_bytes`](Dims::scratch_bytes);
     /// - the fixed text buffers in the session: the history and the current word;
     /// - the search kept in the session between calls (the beams of a round, its parents and
-    ///   the beams the budget stopped, the candidates and the results, `k` of each) and what
+    ///   the beams the budget stopped, the candidates, the results and the learned words
+    ///   offered from a user memory, `k` of each) and what
     ///   a round builds on the stack (the next beams);
     /// - [`SESSION_HANDLE_BYTES`] for the model handle and the slices and lengths in the
     ///   session value.
@@ -66,8 +67,11 @@ pub const SESSION_HANDLE_BYTES: usize = 64 * core::mem::size_of::<usize>();
 /// Bytes of a search kept for `k` beams: its lists and their lengths and flags.
 const fn search_bytes(k: usize) -> usize {
     use core::mem::size_of;
-    k * (3 * size_of::<Beam>() + size_of::<Candidate>() + size_of::<Suggestion>())
-        + size_of::<[usize; 8]>()
+    k * (3 * size_of::<Beam>()
+        + size_of::<Candidate>()
+        + size_of::<Suggestion>()
+        + size_of::<LearnedCandidate>())
+        + size_of::<[usize; 12]>()
 }
 
 #[cfg(test)]

@@ -2,6 +2,7 @@
 
 use super::word_buffer::Word;
 use super::word_list::WordFilter;
+use crate::user_memory::CacheBlend;
 
 /// The default bound on engine steps per search (see [`SearchOptions::max_steps`]).
 ///
@@ -47,14 +48,20 @@ pub struct SearchOptions<'a> {
     pub margin: f32,
     /// Words never offered, and optionally the only words offered.
     pub filter: WordFilter<'a>,
+    /// The user memory to blend with the model as a cache model (see
+    /// [`cache_blend`](crate::user_memory::cache_blend)); `None` gives the model's
+    /// suggestions alone, exactly as before there was a memory. Only
+    /// [`Session::suggest`](super::Session::suggest) and its parts use it; 12-key entry
+    /// ([`Session::keys`](super::Session::keys)) does not.
+    pub memory: Option<CacheBlend<'a>>,
 }
 
 impl SearchOptions<'static> {
-    /// `width` beams, [`DEFAULT_MAX_STEPS`], [`DEFAULT_MARGIN`], no word lists.
+    /// `width` beams, [`DEFAULT_MAX_STEPS`], [`DEFAULT_MARGIN`], no word lists, no memory.
     ///
     /// ```
     /// let options = inkling_core::session::SearchOptions::new(4);
-    /// assert!(options.width == 4 && options.filter.lexicon.is_none());
+    /// assert!(options.width == 4 && options.filter.lexicon.is_none() && options.memory.is_none());
     /// ```
     pub const fn new(width: usize) -> Self {
         SearchOptions {
@@ -65,6 +72,7 @@ impl SearchOptions<'static> {
                 deny: super::word_list::WordList::EMPTY,
                 lexicon: None,
             },
+            memory: None,
         }
     }
 }
@@ -81,10 +89,14 @@ pub struct Suggestion {
     /// The whole word: the bytes already typed followed by the completion (no boundary byte).
     pub text: Word,
     /// Sum of the natural-log probabilities of the completion's bytes given the text before
-    /// it; for a finished word it includes the word boundary byte that ends it.
+    /// it; for a finished word it includes the word boundary byte that ends it. With a
+    /// [memory](SearchOptions::memory) that holds a word starting with the typed part, the
+    /// natural log of the blended probability instead (see
+    /// [`cache_blend`](crate::user_memory::cache_blend)).
     pub logprob: f32,
-    /// Whether the word ended (a boundary byte followed it); `false` for a beam the search
-    /// stopped before it ended (step budget, or nothing better left).
+    /// Whether the word ended (a boundary byte followed it; a word from the user memory is a
+    /// whole word); `false` for a beam the search stopped before it ended (step budget, or
+    /// nothing better left).
     pub finished: bool,
 }
 

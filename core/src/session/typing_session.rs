@@ -471,6 +471,11 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 capacity: MAX_WORD_LEN,
             });
         }
+        // 12-key entry does not blend in the user memory.
+        let options = &SearchOptions {
+            memory: None,
+            ..*options
+        };
         let mut search = Search::<K>::start(self.word.as_bytes(), LIVE, options)?;
         let root = Root {
             logits: self.live_logits,

@@ -39,6 +39,10 @@ pub struct BudgetArgs {
     /// most this many milliseconds at --clock.
     #[arg(long)]
     pub max_ms: Option<f64>,
+    /// Learned words of the user memory kept beside the model: its RAM and flash (4 KB
+    /// sectors) are counted in (`inkling inspect --memory-words`).
+    #[arg(long, default_value_t = 0, value_name = "WORDS")]
+    pub memory_words: usize,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
@@ -176,7 +180,21 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         HostError::Usage("built-in firmware measurements: too few shapes to fit".into())
     })?;
     let ms = |instructions: f64| milliseconds(instructions, args.clock);
-    let mut found = fitting(&model, args.flash, args.ram, args.beams);
+    let (memory_ram, memory_flash) = if args.memory_words > 0 {
+        super::inspect::user_memory_bytes(args.memory_words)
+    } else {
+        (0, 0)
+    };
+    let mut found = fitting(
+        &model,
+        args.flash.saturating_sub(memory_flash),
+        args.ram.saturating_sub(memory_ram),
+        args.beams,
+    );
+    for c in &mut found {
+        c.flash_bytes += memory_flash;
+        c.ram_bytes += memory_ram;
+    }
     if let Some(limit) = args.max_ms {
         within_latency(&mut found, args.clock, limit);
     }
@@ -211,6 +229,9 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
                 "steps_per_keystroke": model.steps_per_keystroke(args.beams, SearchOptions::new(args.beams).max_steps),
                 "keystroke_max_to_mean": model.max_to_mean,
                 "instructions_per_cycle": 1.0,
+                "memory_words": args.memory_words,
+                "memory_ram_bytes": memory_ram,
+                "memory_flash_bytes": memory_flash,
             },
         });
         if found.is_empty() {
@@ -224,8 +245,16 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         .max_ms
         .map(|limit| format!(" with keystrokes of at most {limit} ms"))
         .unwrap_or_default();
+    let memory = if args.memory_words > 0 {
+        format!(
+            "; a user memory of {} words takes {memory_ram} B RAM and {memory_flash} B flash",
+            args.memory_words
+        )
+    } else {
+        String::new()
+    };
     println!(
-        "{} of {} shapes fit {} B flash and {} B RAM{within} ({} suggestions, {} MHz; code {} B, stack {} B assumed; \
+        "{} of {} shapes fit {} B flash and {} B RAM{within} ({} suggestions, {} MHz; code {} B, stack {} B assumed{memory}; \
          time at one instruction per cycle, an optimistic bound):",
         found.len(),
         shapes().count(),

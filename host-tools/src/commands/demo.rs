@@ -270,6 +270,7 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
                 slice,
                 SHOWN,
                 SearchOptions::new(SHOWN),
+                None,
                 |_| {},
             )
         })

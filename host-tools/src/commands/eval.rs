@@ -14,6 +14,7 @@ use std::path::{Path, PathBuf};
 
 use indicatif::{ProgressBar, ProgressStyle};
 use inkling_core::session::{DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
+use inkling_core::user_memory::DEFAULT_CACHE_WEIGHT;
 
 use inkling_core::session::{SearchOptions, WordFilter, WordList};
 
@@ -71,6 +72,14 @@ pub struct EvalArgs {
     /// --savings and --keypad; `inf` follows every word that could still be offered).
     #[arg(long, default_value_t = DEFAULT_MARGIN)]
     pub margin: f32,
+    /// Also type each text with a user memory that starts empty and learns every word as
+    /// the writer ends it, blended into the suggestions as a cache model (for --savings;
+    /// reported as "with_learning" beside "model").
+    #[arg(long, requires = "savings")]
+    pub learn: bool,
+    /// The cache weight of --learn: 0 is the model alone, 1 the memory alone.
+    #[arg(long, default_value_t = DEFAULT_CACHE_WEIGHT, requires = "learn")]
+    pub cache_weight: f32,
 }
 
 fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), HostError> {
@@ -97,6 +106,12 @@ fn baseline(args: &EvalArgs) -> Result<Option<FrequencyBaseline>, HostError> {
     }
     super::checks::count("--count", args.count)?;
     super::checks::at_least_one("--max-bytes", args.max_bytes)?;
+    if !(0.0..=1.0).contains(&args.cache_weight) {
+        return Err(HostError::Usage(format!(
+            "--cache-weight {}: must be between 0 (the model alone) and 1 (the memory alone)",
+            args.cache_weight
+        )));
+    }
     let corpus_path = args.baseline_corpus.as_ref().ok_or_else(|| {
         HostError::Usage(
             "--savings and --keypad need --baseline-corpus FILE: the baseline's word counts \
@@ -142,7 +157,8 @@ fn savings(
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("keystrokes", text.len());
     let found = file.with_weights(|w| {
-        compare(w, baseline, text, args.count, search, |at| {
+        let learn = args.learn.then_some(args.cache_weight);
+        compare(w, baseline, text, args.count, search, learn, |at| {
             bar.set_position(at as u64)
         })
     });
@@ -273,6 +289,9 @@ fn print_table(args: &EvalArgs, reports: &[TextReport]) {
     if args.savings {
         header += &format!(" {:>8} {:>8}", "saved", "freq");
     }
+    if args.learn {
+        header += &format!(" {:>8}", "learning");
+    }
     if args.keypad {
         header += &format!(" {:>7} {:>7} {:>7} {:>7}", "first", "dict", "KSPC", "dict");
     }
@@ -305,6 +324,9 @@ fn print_table(args: &EvalArgs, reports: &[TextReport]) {
                 100.0 * c.model.savings(true, false),
                 100.0 * c.baseline.savings(true, false)
             );
+            if let Some(run) = &c.with_learning {
+                line += &format!(" {:>7.1}%", 100.0 * run.keys.savings(true, false));
+            }
         }
         if let Some((m, d)) = &r.keypad {
             line += &format!(

@@ -14,9 +14,25 @@ pub struct InspectArgs {
     /// Also show the RAM of a typing session offering this many suggestions.
     #[arg(long)]
     pub beams: Option<usize>,
+    /// Also show the RAM and flash of a user memory of this many learned words (flash in
+    /// 4 KB sectors with 4-byte writes).
+    #[arg(long, value_name = "WORDS")]
+    pub memory_words: Option<usize>,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
+}
+
+/// The RAM and flash of a user memory of `words` words, in sectors of
+/// [`SECTOR`](crate::memory_file::SECTOR) bytes with 4-byte writes.
+pub fn user_memory_bytes(words: usize) -> (usize, usize) {
+    use inkling_core::user_memory::{
+        flash_layout::flash_bytes_needed, learned_words::ram_bytes_for,
+    };
+    (
+        ram_bytes_for(words),
+        flash_bytes_needed(words, crate::memory_file::SECTOR, 4),
+    )
 }
 
 /// Runs `inkling inspect`.
@@ -44,6 +60,13 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
         })
         .collect();
     let session = args.beams.map(|k| crate::commands::session_ram(&d, k));
+    let memory = args.memory_words.map(|words| {
+        let (ram, flash) = user_memory_bytes(words);
+        serde_json::json!({
+            "words": words, "ram_bytes": ram, "flash_bytes": flash,
+            "sector_bytes": crate::memory_file::SECTOR,
+        })
+    });
     let (major, minor) = model.version();
     // Which checkpoint layout the converter read (image format 1.1); absent: the schema's own
     // names or a name map.
@@ -66,6 +89,7 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
             "session": session,
         },
         "macs_per_step": d.macs_per_step(),
+        "user_memory": memory,
         "tensors": tensors,
     });
     if args.json {
@@ -108,6 +132,14 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
             println!(
                 "RAM:   typing session with {} suggestions: {s}",
                 args.beams.unwrap_or(0)
+            );
+        }
+        if let Some(words) = args.memory_words {
+            let (ram, flash) = user_memory_bytes(words);
+            println!(
+                "user memory of {words} words: RAM {ram} bytes, flash {flash} bytes ({} sectors of {} bytes)",
+                flash / crate::memory_file::SECTOR,
+                crate::memory_file::SECTOR
             );
         }
         println!("int8 multiply-accumulates per byte: {}", d.macs_per_step());

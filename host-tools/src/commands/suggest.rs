@@ -132,10 +132,10 @@ pub fn with_session(
         },
     };
     let options = SearchOptions {
-        width: args.count,
         max_steps: args.max_steps,
         margin: args.margin,
         filter,
+        ..SearchOptions::new(args.count)
     };
 
     let image = load_image(&args.model)?;

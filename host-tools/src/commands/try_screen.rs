@@ -7,7 +7,14 @@
 //! - `Up` / `Down`: move the mark;
 //! - `Enter`: a new line (the end of a message, as in the training text);
 //! - `Backspace`: delete the last character (inside a word or across a boundary);
+//! - `Ctrl-X`: forget every word learned (in the memory file too, with `--memory`);
 //! - `Esc` or `Ctrl-C`: quit; the terminal is restored however the screen ends.
+//!
+//! The session learns: each word is put in a user memory when a boundary after it is typed
+//! (typos too), and the memory is blended into the suggestions as a cache model. With
+//! `--memory FILE` the memory is read from FILE at the start and written to it at every
+//! new line and on quitting, in the layout a device's flash holds
+//! ([`memory_file`](crate::memory_file)). The file holds what was typed.
 //!
 //! The screen fits the terminal: when rows are short, the key help and the blank lines go
 //! first, then suggestions beyond the first, then older lines of text; the line being typed
@@ -22,11 +29,15 @@ use crossterm::style::Print;
 use crossterm::terminal::{self, ClearType};
 use crossterm::{cursor, execute, queue};
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{SearchOptions, Session, Suggestions, DEFAULT_MAX_STEPS};
+use inkling_core::session::{
+    is_boundary, SearchOptions, Session, Suggestions, WordList, DEFAULT_MAX_STEPS,
+};
+use inkling_core::user_memory::{CacheBlend, UserMemory, DEFAULT_CACHE_WEIGHT};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::SessionMemory;
+use crate::keystroke_savings::{SessionMemory, MEMORY_WORDS};
+use crate::memory_file::MemoryFile;
 use crate::model_file::ModelFile;
 
 /// Lines of typed text kept on the screen (the oldest scroll off).
@@ -43,6 +54,10 @@ pub struct TryArgs {
     /// Engine steps each search may take.
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
+    /// Keep the learned words in FILE (the bytes of a device's flash range): read at the
+    /// start, written at every new line and on quitting. It holds what you type.
+    #[arg(long, value_name = "FILE")]
+    pub memory: Option<PathBuf>,
 }
 
 /// Raw mode and the alternate screen, given back when dropped (also on error or panic).
@@ -71,6 +86,7 @@ enum Action {
     Take,
     Mark(isize),
     Delete,
+    Forget,
     Quit,
     Ignore,
 }
@@ -80,6 +96,7 @@ fn action(key: &KeyEvent) -> Action {
     match key.code {
         KeyCode::Esc => Action::Quit,
         KeyCode::Char('c') if ctrl => Action::Quit,
+        KeyCode::Char('x') if ctrl => Action::Forget,
         KeyCode::Char(c) if !ctrl && !key.modifiers.contains(KeyModifiers::ALT) => {
             Action::Type(c.to_string().into_bytes())
         }
@@ -108,18 +125,38 @@ struct Screen<'b, W: Weights> {
     mark: usize,
     keys: usize,
     note: String,
+    /// The words learned this session (and read from the memory file).
+    learned: Box<UserMemory<MEMORY_WORDS>>,
+    /// Where the memory is kept, if anywhere.
+    file: Option<MemoryFile>,
 }
 
 impl<W: Weights> Screen<'_, W> {
     fn refresh(&mut self) -> Result<(), inkling_core::Error> {
-        self.found = self.session.suggest(&self.options)?;
+        let options = SearchOptions {
+            memory: Some(CacheBlend::new(&self.learned, DEFAULT_CACHE_WEIGHT)),
+            ..self.options
+        };
+        self.found = self.session.suggest(&options)?;
         self.mark = 0;
         Ok(())
+    }
+
+    /// Writes the memory to its file, if it has one (a failure is shown, not fatal).
+    fn save_memory(&mut self) {
+        if let Some(file) = &mut self.file {
+            if let Err(e) = file.save(&mut self.learned) {
+                self.note = format!("memory not saved: {e}");
+            }
+        }
     }
 
     /// Types `bytes`, all or none: a refused byte takes back those before it.
     fn type_bytes(&mut self, bytes: &[u8]) -> Result<(), inkling_core::Error> {
         for (done, &b) in bytes.iter().enumerate() {
+            if is_boundary(b) {
+                self.learned.learn(self.session.word(), &WordList::EMPTY);
+            }
             if let Err(e) = self.session.push(b) {
                 for _ in 0..done {
                     self.session.backspace()?;
@@ -155,7 +192,21 @@ impl<W: Weights> Screen<'_, W> {
                 self.keys += 1;
                 return Ok(true);
             }
-            Action::Type(bytes) => self.type_bytes(&bytes),
+            Action::Type(bytes) => {
+                let typed = self.type_bytes(&bytes);
+                if bytes == b"\n" {
+                    self.save_memory();
+                }
+                typed
+            }
+            Action::Forget => {
+                self.learned.clear();
+                self.save_memory();
+                if self.note.is_empty() {
+                    self.note = "every learned word forgotten".into();
+                }
+                Ok(())
+            }
             Action::Take => {
                 // A suggestion is the typed part of the word followed by its completion.
                 let typed = self.session.word().len();
@@ -221,7 +272,7 @@ impl<W: Weights> Screen<'_, W> {
         if help_rows > 0 {
             lines.push(
                 "Tab: take the marked suggestion  Up/Down: move the mark  Enter: new line  \
-                 Backspace: delete  Esc or Ctrl-C: quit"
+                 Backspace: delete  Ctrl-X: forget learned words  Esc or Ctrl-C: quit"
                     .to_string(),
             );
         }
@@ -250,8 +301,11 @@ impl<W: Weights> Screen<'_, W> {
     }
 
     fn status(&self) -> String {
+        let kept = self.file.as_ref().map_or(String::new(), |f| {
+            format!(" (kept in {})", f.path().display())
+        });
         format!(
-            "key {}, {} steps{}  {}",
+            "key {}, {} steps{}, {} words learned{kept}  {}",
             self.keys,
             self.found.steps,
             if self.found.cut_short {
@@ -259,6 +313,7 @@ impl<W: Weights> Screen<'_, W> {
             } else {
                 ""
             },
+            self.learned.len(),
             self.note
         )
     }
@@ -301,6 +356,13 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
         source,
     };
     let terminal_error = HostError::io("the terminal");
+    let (memory_file, learned) = match &args.memory {
+        Some(path) => {
+            let (file, memory) = MemoryFile::open(path)?;
+            (Some(file), memory)
+        }
+        None => (None, Box::new(UserMemory::new())),
+    };
     file.with_weights(|w| {
         let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
         let session = memory.session::<_, MAX_COUNT>(w).map_err(model_error)?;
@@ -315,6 +377,8 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
             mark: 0,
             keys: 0,
             note: String::new(),
+            learned,
+            file: memory_file,
         };
         screen.refresh().map_err(model_error)?;
         let mut run = || -> io::Result<Result<(), inkling_core::Error>> {
@@ -328,7 +392,10 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
                 };
                 match screen.key(&key) {
                     Ok(true) => {}
-                    Ok(false) => return Ok(Ok(())),
+                    Ok(false) => {
+                        screen.save_memory();
+                        return Ok(Ok(()));
+                    }
                     Err(e) => return Ok(Err(e)),
                 }
             }
@@ -355,6 +422,8 @@ mod tests {
             mark: 0,
             keys: 0,
             note: String::new(),
+            learned: Box::new(UserMemory::new()),
+            file: None,
         };
         let text = screen.text.clone();
         screen.session.push_bytes(&text).unwrap();
@@ -376,6 +445,39 @@ mod tests {
             .lines("title", 40, 8)
             .iter()
             .all(|l| l.chars().count() <= 8));
+    }
+
+    #[test]
+    fn the_screen_learns_a_name_and_forgets_it_on_request() {
+        let image = inkling_core::image::example::tiny_image();
+        let model = inkling_core::Model::from_bytes(&image).unwrap();
+        let mut memory = SessionMemory::new(model.dims(), MAX_COUNT);
+        let session = memory.session::<_, MAX_COUNT>(model).unwrap();
+        let mut screen = Screen {
+            session,
+            options: SearchOptions::new(3),
+            text: Vec::new(),
+            found: Suggestions::default(),
+            mark: 0,
+            keys: 0,
+            note: String::new(),
+            learned: Box::new(UserMemory::new()),
+            file: None,
+        };
+        let offered = |screen: &Screen<'_, _>| {
+            screen
+                .found
+                .list
+                .iter()
+                .any(|s| s.text.as_slice() == b"Zorvath")
+        };
+        screen.type_bytes(b"Zorvath Zorvath Z").unwrap();
+        screen.refresh().unwrap();
+        assert_eq!(screen.learned.count_of(b"Zorvath"), 2);
+        assert!(offered(&screen));
+        let forget = KeyEvent::new(KeyCode::Char('x'), KeyModifiers::CONTROL);
+        assert!(screen.key(&forget).unwrap());
+        assert!(screen.learned.is_empty() && !offered(&screen));
     }
 
     #[test]

@@ -6,7 +6,7 @@ use inkling_core::Error;
 use crate::commands::suggest::MAX_COUNT;
 
 use super::frequency_baseline::FrequencyBaseline;
-use super::model_predictor::ModelPredictor;
+use super::model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
 use super::session_memory::SessionMemory;
 use super::simulation::{simulate, simulate_with, KeyCount};
 use inkling_core::session::SearchOptions;
@@ -25,16 +25,34 @@ pub struct Comparison {
     pub baseline: KeyCount,
     /// Engine steps of all the model's searches.
     pub search_steps: usize,
+    /// The model's run with a user memory that starts empty and learns as the writer types
+    /// (same search), its engine steps and the cache weight, if asked for.
+    pub with_learning: Option<LearningRun>,
+}
+
+/// The model's run with learning (see [`Comparison::with_learning`]).
+#[derive(Debug, Clone, Copy)]
+pub struct LearningRun {
+    /// The keys.
+    pub keys: KeyCount,
+    /// Engine steps of all its searches.
+    pub search_steps: usize,
+    /// The cache weight `λ`.
+    pub weight: f32,
+    /// Words the memory held at the end.
+    pub words_learned: usize,
 }
 
 /// Types `text` with the model `weights` and with `baseline`, `count` suggestions each (at
-/// most [`MAX_COUNT`]); `progress` hears how many bytes of the text the model has done.
+/// most [`MAX_COUNT`]), and, with `learn` set to a cache weight, with the model and a user
+/// memory that starts empty; `progress` hears how many bytes of the text a run has done.
 pub fn compare(
     weights: &dyn Weights,
     baseline: &mut FrequencyBaseline,
     text: &[u8],
     count: usize,
     search: SearchOptions<'_>,
+    learn: Option<f32>,
     mut progress: impl FnMut(usize),
 ) -> Result<Comparison, Error> {
     let mut memory = SessionMemory::new(weights.dims(), MAX_COUNT);
@@ -43,21 +61,41 @@ pub fn compare(
     let model = simulate_with(text, count, &mut predictor, |offer| {
         progress(offer.typed.len())
     })?;
+    let search_steps = predictor.search_steps;
+    let with_learning = match learn {
+        Some(weight) => {
+            let session = memory.session::<_, MAX_COUNT>(weights)?;
+            let mut predictor =
+                ModelPredictor::new(session, search).learning(Learning::new(weight));
+            let keys = simulate_with(text, count, &mut predictor, |offer| {
+                progress(offer.typed.len())
+            })?;
+            Some(LearningRun {
+                keys,
+                search_steps: predictor.search_steps,
+                weight,
+                words_learned: predictor.learned_words(),
+            })
+        }
+        None => None,
+    };
     let Ok(baseline) = simulate(text, count, baseline);
     Ok(Comparison {
         count,
         model,
         baseline,
-        search_steps: predictor.search_steps,
+        search_steps,
+        with_learning,
     })
 }
 
 impl Comparison {
     /// The JSON object `{"model", "baseline", "count", "selection_counts", "auto_space", ...,
-    /// "variants": [...]}` (the headline framing first, then the others).
+    /// "variants": [...]}` (the headline framing first, then the others), with
+    /// `"with_learning"` beside `"model"` when the run with a user memory was made.
     pub fn to_json(&self) -> serde_json::Value {
         let (sel, auto) = FRAMINGS[0];
-        serde_json::json!({
+        let mut v = serde_json::json!({
             "model": self.model.savings(sel, auto),
             "baseline": self.baseline.savings(sel, auto),
             "count": self.count,
@@ -77,7 +115,24 @@ impl Comparison {
                 "model": self.model.savings(sel, auto),
                 "baseline": self.baseline.savings(sel, auto),
             })).collect::<Vec<_>>(),
-        })
+        });
+        if let Some(run) = &self.with_learning {
+            v["with_learning"] = serde_json::json!(run.keys.savings(sel, auto));
+            v["learning"] = serde_json::json!({
+                "keys": run.keys.with_prediction(sel, auto),
+                "words_taken": run.keys.taken,
+                "search_steps": run.search_steps,
+                "cache_weight": run.weight,
+                "memory_capacity_words": MEMORY_WORDS,
+                "words_learned": run.words_learned,
+                "variants": FRAMINGS[1..].iter().map(|&(sel, auto)| serde_json::json!({
+                    "selection_counts": sel,
+                    "auto_space": auto,
+                    "with_learning": run.keys.savings(sel, auto),
+                })).collect::<Vec<_>>(),
+            });
+        }
+        v
     }
 
     /// A few lines of text: the savings of both under each framing, and the keys.
@@ -86,15 +141,26 @@ impl Comparison {
             "keystroke savings, {} suggestions, {} bytes ({} words):",
             self.count, self.model.bytes, self.model.words
         );
-        println!("  {:<38} {:>8} {:>8}", "framing", "model", "baseline");
+        let learned = if self.with_learning.is_some() {
+            format!(" {:>13}", "with learning")
+        } else {
+            String::new()
+        };
+        println!(
+            "  {:<38} {:>8} {:>8}{learned}",
+            "framing", "model", "baseline"
+        );
         for (sel, auto) in FRAMINGS {
             let label = format!(
                 "selection key {}, {}",
                 if sel { "counted" } else { "free" },
                 if auto { "auto space" } else { "no auto space" }
             );
+            let learned = self.with_learning.map_or(String::new(), |run| {
+                format!(" {:>12.1}%", 100.0 * run.keys.savings(sel, auto))
+            });
             println!(
-                "  {label:<38} {:>7.1}% {:>7.1}%",
+                "  {label:<38} {:>7.1}% {:>7.1}%{learned}",
                 100.0 * self.model.savings(sel, auto),
                 100.0 * self.baseline.savings(sel, auto)
             );
@@ -107,5 +173,17 @@ impl Comparison {
             self.baseline.with_prediction(true, false),
             self.baseline.taken
         );
+        if let Some(run) = &self.with_learning {
+            println!(
+                "  with learning: {} keys ({} words taken), a memory of at most {MEMORY_WORDS} words \
+                 starting empty ({} at the end), cache weight {}, {} engine steps against {}",
+                run.keys.with_prediction(true, false),
+                run.keys.taken,
+                run.words_learned,
+                run.weight,
+                run.search_steps,
+                self.search_steps
+            );
+        }
     }
 }

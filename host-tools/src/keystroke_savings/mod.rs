@@ -35,9 +35,9 @@ pub mod model_predictor;
 pub mod session_memory;
 pub mod simulation;
 
-pub use comparison::{compare, Comparison};
+pub use comparison::{compare, Comparison, LearningRun};
 pub use frequency_baseline::FrequencyBaseline;
 pub use keypad_entry::{keypad_entry, KeypadCount};
-pub use model_predictor::ModelPredictor;
+pub use model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
 pub use session_memory::SessionMemory;
 pub use simulation::{simulate, simulate_with, KeyCount, Offer, Predictor};

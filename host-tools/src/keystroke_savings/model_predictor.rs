@@ -1,10 +1,35 @@
-//! The model's typing session as a [`Predictor`].
+//! The model's typing session as a [`Predictor`], optionally learning the writer's words.
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{SearchOptions, Session};
+use inkling_core::session::{is_boundary, SearchOptions, Session, WordList};
+use inkling_core::user_memory::{CacheBlend, UserMemory};
 use inkling_core::Error;
 
 use super::simulation::Predictor;
+
+/// Words the simulated device's user memory holds: 256 words take
+/// `UserMemory::<256>::RAM_BYTES` (about 10 KB) of the device's RAM.
+pub const MEMORY_WORDS: usize = 256;
+
+/// A user memory that learns each word when the boundary after it is typed, blended into
+/// the suggestions with cache weight `weight`.
+#[derive(Debug)]
+pub struct Learning {
+    /// The words learned so far.
+    pub memory: Box<UserMemory<MEMORY_WORDS>>,
+    /// The cache weight `λ`.
+    pub weight: f32,
+}
+
+impl Learning {
+    /// An empty memory blended with weight `weight`.
+    pub fn new(weight: f32) -> Self {
+        Learning {
+            memory: Box::new(UserMemory::new()),
+            weight,
+        }
+    }
+}
 
 /// Offers the session's completions of the word being typed (or of the next word). A word
 /// byte past the session's word capacity is not fed (the session refuses it).
@@ -12,6 +37,7 @@ use super::simulation::Predictor;
 pub struct ModelPredictor<'b, W: Weights, const K: usize> {
     session: Session<'b, W, K>,
     search: SearchOptions<'b>,
+    learning: Option<Learning>,
     /// Engine steps taken by the searches so far.
     pub search_steps: usize,
 }
@@ -23,8 +49,23 @@ impl<'b, W: Weights, const K: usize> ModelPredictor<'b, W, K> {
         ModelPredictor {
             session,
             search,
+            learning: None,
             search_steps: 0,
         }
+    }
+
+    /// The same predictor, learning each word typed into `learning` when the boundary after
+    /// it is typed, and blending the memory into its suggestions.
+    pub fn learning(self, learning: Learning) -> Self {
+        ModelPredictor {
+            learning: Some(learning),
+            ..self
+        }
+    }
+
+    /// Words in the memory (0 without learning).
+    pub fn learned_words(&self) -> usize {
+        self.learning.as_ref().map_or(0, |l| l.memory.len())
     }
 }
 
@@ -32,6 +73,11 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
     type Error = Error;
 
     fn push(&mut self, byte: u8) -> Result<(), Error> {
+        if let Some(learning) = &mut self.learning {
+            if is_boundary(byte) {
+                learning.memory.learn(self.session.word(), &WordList::EMPTY);
+            }
+        }
         match self.session.push(byte) {
             Err(Error::CapacityExceeded { buffer: "word", .. }) => Ok(()),
             other => other,
@@ -41,6 +87,10 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
     fn offer(&mut self, _prefix: &[u8], count: usize) -> Result<Vec<Vec<u8>>, Error> {
         let options = SearchOptions {
             width: count.min(K),
+            memory: self
+                .learning
+                .as_ref()
+                .map(|l| CacheBlend::new(&l.memory, l.weight)),
             ..self.search
         };
         let found = self.session.suggest(&options)?;

@@ -1,0 +1,198 @@
+//! The user memory in NOR flash, format version 1, byte by byte.
+//!
+//! The memory lives in a range of whole flash pages (erase units) given to
+//! [`FlashStore`](super::FlashStore), managed as a key-value map by the `sequential-storage`
+//! crate, version 8 (its map, with no cache). Its layout is that crate's; what this project
+//! adds is the keys and the records.
+//!
+//! ## Pages (the crate's layout)
+//! - The range is at least two pages. A page is *open* (all `0xFF`), *partly written*
+//!   (its first flash word written with the marker byte `0x00`) or *closed* (its last flash
+//!   word written too). Pages are used in turn, so erases are spread over all of them.
+//! - Between the markers, items follow one another from the first word on, each aligned to
+//!   the flash's write size `W`:
+//!
+//! | offset | size | field |
+//! |---|---|---|
+//! | 0 | 4 | CRC-32 of the data (the crate's variant, never 0; 0 marks an item erased) |
+//! | 4 | 2 | data length `L`, little-endian |
+//! | 6 | 2 | CRC-16 of the length field |
+//! | 8, padded to `W` | `L` | data: the key, then the record |
+//! | then | | padding to `W` (`0xFF`) |
+//!
+//! - A new value of a key is appended; the last one in page order is the live one. When the
+//!   pages fill, the oldest page's live items are copied forward before it is erased.
+//! - An item whose header or data CRC fails is skipped; a page left half-erased by a power
+//!   cut is erased again on the next operation. So a power cut during a write leaves the
+//!   previous value of the key being written, or the new one.
+//!
+//! ## Keys (2 bytes, little-endian `u16`)
+//! - [`HEADER_KEY`] (`0xFFFF`): the header record.
+//! - `0 ..= 0xFFFE`: the word record of that slot of the [`UserMemory`](super::UserMemory)
+//!   (so a memory holds at most [`MAX_STORED_WORDS`] words).
+//!
+//! ## Records ([postcard](https://postcard.jamesmunns.com) 1.x wire format)
+//! One enum, so every item decodes with one type; integers are varints (`u16`, `u32`:
+//! LEB128, 7 bits a byte, least significant first), byte strings a varint length then the
+//! bytes.
+//!
+//! | variant (varint) | fields, in order |
+//! |---|---|
+//! | 0, header | `format: u16` ([`FORMAT_VERSION`]), `generation: u32` |
+//! | 1, word | `generation: u32`, `text: bytes` (2 ..= 32 bytes of UTF-8, no word boundary), `count: u16` (≥ 1), `last_used: u32` |
+//!
+//! ## Reading
+//! The generation is the header's (0 when there is none). The memory is the word records of
+//! that generation, each slot's last one, in slot order. A record that does not decode, a
+//! text that is no word, a count of 0, a word already read, or a slot at or past the
+//! memory's capacity is skipped; the words after a skipped slot move down one (and are
+//! written again at their new slots by the next save). A header of another format is an
+//! error ([`FlashProblem::Record`](crate::error::FlashProblem::Record)).
+//!
+//! ## Writing
+//! - A learned word writes its slot's record (one item): that is the commit of that word.
+//!   Records are appended to space that reads as erased and are not read back: on flash
+//!   damaged by something other than the store and power cuts (stray bits in that space), a
+//!   record may be spoilt as it is written; the next load skips it.
+//! - Clearing writes a header with the generation plus one: one item, so a clear is whole
+//!   or not at all; the older words stay in flash, ignored, until their slots are written
+//!   again or their pages erased.
+//!
+//! ```
+//! use inkling_core::user_memory::flash_layout::{HEADER_KEY, FORMAT_VERSION, max_item_bytes};
+//! assert_eq!((HEADER_KEY, FORMAT_VERSION), (0xFFFF, 1));
+//! assert!(max_item_bytes(4) <= 64);
+//! ```
+
+use serde::{Deserialize, Serialize};
+
+/// The format version written in the header record.
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::FORMAT_VERSION, 1);
+/// ```
+pub const FORMAT_VERSION: u16 = 1;
+
+/// The key of the header record.
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::HEADER_KEY, u16::MAX);
+/// ```
+pub const HEADER_KEY: u16 = u16::MAX;
+
+/// The most words a memory kept in flash may hold (slots are keys below [`HEADER_KEY`]).
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_STORED_WORDS, 65535);
+/// ```
+pub const MAX_STORED_WORDS: usize = HEADER_KEY as usize;
+
+/// The longest data of an item: a 2-byte key and a word record (variant 1 byte, generation
+/// 5, text 1 + 32, count 3, time 5).
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_DATA_BYTES, 49);
+/// ```
+pub const MAX_DATA_BYTES: usize = 2 + 1 + 5 + 1 + crate::session::MAX_WORD_LEN + 3 + 5;
+
+/// The most flash bytes one item takes with a write size of `word` bytes: the 8-byte header
+/// and the data, each padded to whole words.
+///
+/// ```
+/// use inkling_core::user_memory::flash_layout::max_item_bytes;
+/// assert_eq!(max_item_bytes(4), 8 + 52);
+/// assert_eq!(max_item_bytes(1), 8 + 49);
+/// ```
+pub const fn max_item_bytes(word: usize) -> usize {
+    let word = if word == 0 { 1 } else { word };
+    8usize.div_ceil(word) * word + MAX_DATA_BYTES.div_ceil(word) * word
+}
+
+/// Flash bytes a memory of `words` words needs in pages of `page` bytes with a write size
+/// of `word` bytes: room for every slot's record and the header at their largest, in pages
+/// less their two marker words, plus two spare pages for the store to move items into
+/// before it erases one (our margin; common practice, no source). 0 if a page cannot hold
+/// one item.
+///
+/// ```
+/// use inkling_core::user_memory::flash_layout::flash_bytes_needed;
+/// // 256 words in 4 KB sectors with 4-byte writes: 257 items of 60 bytes, 68 to a page.
+/// assert_eq!(flash_bytes_needed(256, 4096, 4), (4 + 2) * 4096);
+/// ```
+pub const fn flash_bytes_needed(words: usize, page: usize, word: usize) -> usize {
+    let item = max_item_bytes(word);
+    let usable = page.saturating_sub(2 * word);
+    if usable < item {
+        return 0;
+    }
+    let per_page = usable / item;
+    ((words + 1).div_ceil(per_page) + 2) * page
+}
+
+/// One record (see the [module docs](self)).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub(crate) enum Record<'a> {
+    /// The header: the format and the generation of the live words.
+    Header { format: u16, generation: u32 },
+    /// The word of one slot.
+    Word {
+        generation: u32,
+        text: &'a [u8],
+        count: u16,
+        last_used: u32,
+    },
+}
+
+impl<'a> sequential_storage::map::Value<'a> for Record<'a> {
+    fn serialize_into(
+        &self,
+        buffer: &mut [u8],
+    ) -> Result<usize, sequential_storage::map::SerializationError> {
+        postcard::to_slice(self, buffer)
+            .map(|used| used.len())
+            .map_err(|_| sequential_storage::map::SerializationError::BufferTooSmall)
+    }
+
+    fn deserialize_from(
+        buffer: &'a [u8],
+    ) -> Result<(Self, usize), sequential_storage::map::SerializationError> {
+        postcard::take_from_bytes(buffer)
+            .map(|(record, rest)| (record, buffer.len() - rest.len()))
+            .map_err(|_| sequential_storage::map::SerializationError::InvalidFormat)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn records_encode_as_the_spec_says() {
+        // postcard's wire format (postcard 1.x specification): enum variant as a varint,
+        // u16/u32 as LEB128 varints, byte slices as a varint length and the bytes.
+        let mut buf = [0u8; 64];
+        let header = Record::Header {
+            format: 1,
+            generation: 300,
+        };
+        let n = postcard::to_slice(&header, &mut buf).unwrap().len();
+        // 300 = 0b10_0101100: 0xAC 0x02.
+        assert_eq!(&buf[..n], &[0, 1, 0xAC, 0x02]);
+        let word = Record::Word {
+            generation: 0,
+            text: b"Hut",
+            count: 128,
+            last_used: 5,
+        };
+        let n = postcard::to_slice(&word, &mut buf).unwrap().len();
+        assert_eq!(&buf[..n], &[1, 0, 3, b'H', b'u', b't', 0x80, 0x01, 5]);
+        let longest = Record::Word {
+            generation: u32::MAX,
+            text: &[b'a'; crate::session::MAX_WORD_LEN],
+            count: u16::MAX,
+            last_used: u32::MAX,
+        };
+        let n = postcard::to_slice(&longest, &mut buf).unwrap().len();
+        assert_eq!(2 + n, MAX_DATA_BYTES);
+    }
+}

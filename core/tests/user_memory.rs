@@ -1,0 +1,194 @@
+//! The user memory in a typing session: learned words offered, blended as a cache model,
+//! and nothing changed when no memory is given.
+
+use inkling_core::image::example::tiny_image;
+use inkling_core::session::{SearchOptions, Session, Suggestions, WordFilter, WordList};
+use inkling_core::user_memory::{CacheBlend, UserMemory};
+use inkling_core::{Model, Scratch};
+
+const K: usize = 4;
+
+/// Types `text` into a fresh session over the tiny example model and hands it to `f`.
+fn with_session<R>(text: &[u8], f: impl FnOnce(&mut Session<'_, Model<'_>, K>) -> R) -> R {
+    let image = tiny_image();
+    let model = Model::from_bytes(&image).unwrap();
+    let dims = *model.dims();
+    let mut floats = vec![0.0f32; dims.session_floats(K)];
+    let (mut work, mut act) = (vec![0.0f32; dims.work_len()], vec![0i16; dims.act_len()]);
+    let scratch = Scratch::new(&dims, &mut work, &mut act).unwrap();
+    let mut session = Session::<_, K>::new(model, &mut floats, scratch).unwrap();
+    session.push_bytes(text).unwrap();
+    f(&mut session)
+}
+
+fn bits(found: &Suggestions<K>) -> Vec<(Vec<u8>, u32, bool)> {
+    found
+        .list
+        .iter()
+        .map(|s| (s.text.to_vec(), s.logprob.to_bits(), s.finished))
+        .collect()
+}
+
+#[test]
+fn a_memory_with_no_word_of_the_prefix_changes_nothing() {
+    let mut memory = UserMemory::<16>::new();
+    memory.learn_text(b"zebra zone", &WordList::EMPTY);
+    for context in [&b"th"[..], b"we w", b"a", b"x,y"] {
+        with_session(context, |s| {
+            let plain = s.suggest(&SearchOptions::new(3)).unwrap();
+            for m in [UserMemory::<16>::new(), memory.clone()] {
+                let options = SearchOptions {
+                    memory: Some(CacheBlend::new(&m, 0.3)),
+                    ..SearchOptions::new(3)
+                };
+                let with = s.suggest(&options).unwrap();
+                assert_eq!(bits(&with), bits(&plain), "{context:?}");
+                assert_eq!((with.steps, with.cut_short), (plain.steps, plain.cut_short));
+            }
+        });
+    }
+}
+
+#[test]
+fn a_name_typed_twice_is_offered_the_third_time() {
+    // The simulated writer of the issue: a name unknown to the model, learned each time
+    // its word ends, is offered once its first letter is typed the third time.
+    let mut memory = UserMemory::<64>::new();
+    let text = b"call Zorvath at the hut. then Zorvath again, ask ";
+    let mut typed = Vec::new();
+    for word in text.split_inclusive(|&b| b == b' ') {
+        typed.extend_from_slice(word);
+        memory.learn_text(word, &WordList::EMPTY);
+    }
+    assert_eq!(memory.count_of(b"Zorvath"), 2);
+    typed.push(b'Z');
+    let options = SearchOptions {
+        memory: Some(CacheBlend::new(&memory, 0.3)),
+        ..SearchOptions::new(3)
+    };
+    let found = with_session(&typed, |s| s.suggest(&options).unwrap());
+    assert!(
+        found.list.iter().any(|x| x.text.as_slice() == b"Zorvath"),
+        "{:?}",
+        found.list
+    );
+    let plain = with_session(&typed, |s| s.suggest(&SearchOptions::new(3)).unwrap());
+    assert!(plain.list.iter().all(|x| x.text.as_slice() != b"Zorvath"));
+}
+
+#[test]
+fn a_learned_word_the_search_missed_is_scored_as_the_search_scores_it() {
+    // The chain rule gives one score per word: stepping a learned word's bytes must give the
+    // bits the wider search gave it, and the blend must be the interpolation of Kuhn & De
+    // Mori (1990) of that score with the word's share of the memory.
+    let context = b"the w";
+    let every = SearchOptions {
+        margin: f32::INFINITY,
+        ..SearchOptions::new(K)
+    };
+    let wide = with_session(context, |s| s.suggest(&every).unwrap());
+    let target = wide
+        .list
+        .iter()
+        .filter(|x| x.finished)
+        .nth(2)
+        .unwrap()
+        .clone();
+    let mut memory = UserMemory::<8>::new();
+    memory.learn(&target.text, &WordList::EMPTY);
+    memory.learn(b"wzzz", &WordList::EMPTY);
+    let weight = 0.3f32;
+    let narrow = SearchOptions {
+        memory: Some(CacheBlend::new(&memory, weight)),
+        ..SearchOptions::new(1)
+    };
+    let plain_one = with_session(context, |s| {
+        s.suggest(&SearchOptions {
+            memory: None,
+            ..narrow
+        })
+        .unwrap()
+    });
+    assert_ne!(plain_one.list[0].text, target.text);
+    let found = with_session(context, |s| {
+        s.suggest(&SearchOptions { width: 3, ..narrow }).unwrap()
+    });
+    let blend = CacheBlend::new(&memory, weight);
+    let entry = found.list.iter().find(|x| x.text == target.text).unwrap();
+    let expected = blend.blend(target.logprob, 0.5);
+    assert_eq!(entry.logprob.to_bits(), expected.to_bits());
+    // By hand: (1 - 0.3) e^lp + 0.3 * 1/2.
+    let by_hand = 0.7 * (target.logprob as f64).exp() + 0.15;
+    assert!((f64::from(entry.logprob).exp() - by_hand).abs() < 1e-6);
+    // And scored by stepping with a width of one (the search found another word).
+    let one = with_session(context, |s| s.suggest(&narrow).unwrap());
+    assert!(one.steps > plain_one.steps);
+    let ranked: Vec<f32> = found.list.iter().map(|x| x.logprob).collect();
+    assert!(ranked.windows(2).all(|w| w[0] >= w[1]));
+}
+
+#[test]
+fn a_spent_budget_leaves_learned_words_at_the_cache_share() {
+    let mut memory = UserMemory::<8>::new();
+    memory.learn_text(b"wombat wombat wicket", &WordList::EMPTY);
+    let weight = 0.4f32;
+    let options = SearchOptions {
+        max_steps: 0,
+        memory: Some(CacheBlend::new(&memory, weight)),
+        ..SearchOptions::new(3)
+    };
+    let found = with_session(b"w", |s| s.suggest(&options).unwrap());
+    assert!(found.cut_short && found.steps == 0);
+    // λ · P_cache: 0.4 · 2/3 and 0.4 · 1/3, the lower bounds of their blends.
+    let share = |w: &[u8]| {
+        found
+            .list
+            .iter()
+            .find(|x| x.text.as_slice() == w)
+            .unwrap()
+            .logprob
+    };
+    assert!((share(b"wombat").exp() - 0.4 * 2.0 / 3.0).abs() < 1e-6);
+    assert!((share(b"wicket").exp() - 0.4 / 3.0).abs() < 1e-6);
+}
+
+#[test]
+fn denied_and_lexicon_filtered_learned_words_are_not_offered() {
+    let mut memory = UserMemory::<8>::new();
+    memory.learn_text(b"wombat wicket", &WordList::EMPTY);
+    let deny = WordList::new(b"wombat").unwrap();
+    let options = SearchOptions {
+        filter: WordFilter {
+            deny,
+            lexicon: None,
+        },
+        memory: Some(CacheBlend::new(&memory, 0.9)),
+        ..SearchOptions::new(3)
+    };
+    let found = with_session(b"w", |s| s.suggest(&options).unwrap());
+    assert!(found.list.iter().all(|x| x.text.as_slice() != b"wombat"));
+    assert!(found.list.iter().any(|x| x.text.as_slice() == b"wicket"));
+}
+
+#[test]
+fn a_search_with_memory_in_parts_gives_what_it_gives_at_once() {
+    let mut memory = UserMemory::<8>::new();
+    memory.learn_text(b"wombat wicket wharf the then", &WordList::EMPTY);
+    let options = SearchOptions {
+        memory: Some(CacheBlend::new(&memory, 0.3)),
+        ..SearchOptions::new(3)
+    };
+    for context in [&b"w"[..], b"the ", b"th"] {
+        with_session(context, |s| {
+            let whole = s.suggest(&options).unwrap();
+            for part in [0, 1, 3] {
+                let mut found = s.suggest_within(&options, part).unwrap();
+                while s.is_refining() {
+                    found = s.refine(&options, part.max(1)).unwrap();
+                }
+                assert_eq!(bits(&found), bits(&whole), "{context:?} in parts of {part}");
+                assert_eq!(found.steps, whole.steps);
+            }
+        });
+    }
+}

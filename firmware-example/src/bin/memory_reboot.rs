@@ -1,0 +1,226 @@
+//! The user memory on the device: a session that learns, its memory kept in flash (a
+//! RAM-backed NOR flash here, as QEMU's board has no flash the program may write), read back
+//! after a simulated reboot, and the instructions learning adds to each keystroke.
+//!
+//! It types the start of the scenario's logbook twice from a fresh session: once without a
+//! memory, once learning each word as it ends (and saving it to flash, one record), then
+//! drops the memory and the store, reads the flash again as a rebooted device would, and
+//! checks the memory is the one saved. Figures on the status log:
+//! `memory_keystroke_plain_mean`, `memory_keystroke_learning_mean` (push and the whole
+//! search), `memory_added_per_keystroke_mean` and `..._max`, `memory_save_instructions_mean`
+//! (per learned word), `memory_load_instructions`, `memory_words_restored`, and the RAM of
+//! the memory and the flash range. Exits with status 4 if the memory read back differs.
+//! Run it with `tests/firmware/memory_reboot.sh` or `cargo run --release --bin memory_reboot`.
+#![no_std]
+#![no_main]
+
+#[allow(dead_code)]
+#[path = "../exit.rs"]
+mod exit;
+#[path = "../instruction_clock.rs"]
+mod instruction_clock;
+#[allow(dead_code)]
+#[path = "../semihosting_io.rs"]
+mod semihosting_io;
+#[allow(dead_code)]
+#[path = "../status_log.rs"]
+mod status_log;
+
+use cortex_m_rt::entry;
+use inkling_core::session::{is_boundary, SearchOptions, Session, WordList};
+use inkling_core::user_memory::flash_layout::flash_bytes_needed;
+use inkling_core::user_memory::{
+    CacheBlend, FlashStore, RamFlash, UserMemory, DEFAULT_CACHE_WEIGHT,
+};
+use inkling_core::{Model, Scratch};
+
+use exit::{exit, ExitCode};
+use instruction_clock::{calibrate, InstructionClock, CALIBRATION_LOOPS};
+use status_log::StatusLog;
+
+#[cfg(feature = "defmt")]
+use defmt_semihosting as _;
+
+// The buffer sizes from the image's dimensions.
+include!(concat!(env!("OUT_DIR"), "/buffer_sizes.rs"));
+// This program runs no chunked prefill.
+const _: usize = CHUNK_WORK_LEN;
+
+/// Bytes aligned to 16, as the image's payloads expect for direct word loads.
+#[repr(C, align(16))]
+struct Aligned<T: ?Sized>(T);
+
+/// The model image, in flash.
+static IMAGE: &Aligned<[u8]> = &Aligned(*include_bytes!(env!("INKLING_IMAGE_FILE")));
+
+/// The typed text: the first lines of the scenario's logbook (invented), whose names and
+/// phrases come back line after line.
+const TEXT_FILE: &[u8] = include_bytes!("../../../data/scenario/logbook-heldout.txt");
+/// Bytes of it typed (cut back to the end of a line).
+const TEXT_BYTES: usize = 600;
+
+/// Words the memory holds.
+const WORDS: usize = 64;
+/// Flash page (erase unit) of the simulated flash: 1 KB.
+const PAGE: usize = 1024;
+/// Bytes of the flash range: what the memory needs.
+const FLASH_BYTES: usize = flash_bytes_needed(WORDS, PAGE, 4);
+
+static mut SESSION_STATES: [f32; SESSION_FLOATS] = [0.0; SESSION_FLOATS];
+static mut WORK: [f32; WORK_LEN] = [0.0; WORK_LEN];
+static mut ACT: [i16; ACT_LEN] = [0; ACT_LEN];
+/// The simulated flash, erased.
+static mut FLASH: [u8; FLASH_BYTES] = [0xFF; FLASH_BYTES];
+/// The memory, and the one read back after the reboot.
+static mut MEMORY: UserMemory<WORDS> = UserMemory::new();
+static mut REBOOTED: UserMemory<WORDS> = UserMemory::new();
+
+fn fail(log: &mut StatusLog, what: &str, e: &dyn core::fmt::Display, code: ExitCode) -> ! {
+    log.failure(what, e);
+    exit(code)
+}
+
+/// The text typed: [`TEXT_FILE`] up to the last line end within [`TEXT_BYTES`].
+fn text() -> &'static [u8] {
+    let head = TEXT_FILE.get(..TEXT_BYTES).unwrap_or(TEXT_FILE);
+    let end = head
+        .iter()
+        .rposition(|&b| b == b'\n')
+        .map_or(head.len(), |p| p + 1);
+    head.get(..end).unwrap_or(head)
+}
+
+#[entry]
+fn main() -> ! {
+    let mut log = StatusLog::open();
+    log.note("inkling user memory: learning, flash, reboot");
+    let Some(core) = cortex_m::Peripherals::take() else {
+        exit(ExitCode::Internal)
+    };
+    let clock = InstructionClock::start(core.SYST);
+    let calibration_ticks = calibrate(&clock);
+    let per_tick =
+        (2 * u64::from(CALIBRATION_LOOPS) + calibration_ticks / 2) / calibration_ticks.max(1);
+    let since = |start: u64| (clock.ticks() - start) * per_tick;
+
+    let model = match Model::from_bytes(&IMAGE.0) {
+        Ok(model) => model,
+        Err(e) => fail(&mut log, "built-in image", &e, ExitCode::BadImage),
+    };
+    let dims = *model.dims();
+    // SAFETY: the only references to these statics, taken once; no interrupt touches them.
+    let (states, work, act, flash, memory, rebooted) = unsafe {
+        (
+            &mut *core::ptr::addr_of_mut!(SESSION_STATES),
+            &mut *core::ptr::addr_of_mut!(WORK),
+            &mut *core::ptr::addr_of_mut!(ACT),
+            &mut *core::ptr::addr_of_mut!(FLASH),
+            &mut *core::ptr::addr_of_mut!(MEMORY),
+            &mut *core::ptr::addr_of_mut!(REBOOTED),
+        )
+    };
+    let scratch = match Scratch::new(&dims, work, act) {
+        Ok(scratch) => scratch,
+        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
+    };
+    let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {
+        Ok(session) => session,
+        Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
+    };
+    log.figure("memory_words_capacity", WORDS as u64);
+    log.figure("memory_ram_bytes", UserMemory::<WORDS>::RAM_BYTES as u64);
+    log.figure("memory_flash_bytes", FLASH_BYTES as u64);
+
+    let mut store = match FlashStore::new(RamFlash::<PAGE>::new(flash), 0..FLASH_BYTES as u32) {
+        Ok(store) => store,
+        Err(e) => fail(&mut log, "flash store", &e, ExitCode::Internal),
+    };
+    if let Err(e) = store.load(memory) {
+        fail(&mut log, "loading the memory", &e, ExitCode::Internal)
+    }
+
+    let plain = SearchOptions::new(SUGGESTIONS);
+    let mut plain_costs = [0u64; 2048];
+    let mut keys = 0usize;
+    let (mut plain_sum, mut learning_sum, mut added_max) = (0u64, 0u64, 0u64);
+    let (mut saves, mut save_sum) = (0u64, 0u64);
+    for learning in [false, true] {
+        if let Err(e) = session.clear() {
+            fail(&mut log, "clearing the session", &e, ExitCode::Internal)
+        }
+        for (i, &b) in text().iter().enumerate() {
+            if learning && is_boundary(b) {
+                let start = clock.ticks();
+                memory.learn(session.word(), &WordList::EMPTY);
+                match store.save(memory) {
+                    Ok(0) => {}
+                    Ok(_) => {
+                        saves += 1;
+                        save_sum += since(start);
+                    }
+                    Err(e) => fail(&mut log, "saving the memory", &e, ExitCode::Internal),
+                }
+            }
+            let start = clock.ticks();
+            if let Err(e) = session.push(b) {
+                if !matches!(e, inkling_core::Error::CapacityExceeded { .. }) {
+                    fail(&mut log, "typing", &e, ExitCode::Internal)
+                }
+            }
+            let options = SearchOptions {
+                memory: learning.then(|| CacheBlend::new(memory, DEFAULT_CACHE_WEIGHT)),
+                ..plain
+            };
+            if let Err(e) = session.suggest(&options) {
+                fail(&mut log, "suggesting", &e, ExitCode::Internal)
+            }
+            let cost = since(start);
+            if learning {
+                learning_sum += cost;
+                let before = plain_costs.get(i).copied().unwrap_or(0);
+                added_max = added_max.max(cost.saturating_sub(before));
+            } else {
+                plain_sum += cost;
+                if let Some(slot) = plain_costs.get_mut(i) {
+                    *slot = cost;
+                }
+                keys += 1;
+            }
+        }
+    }
+    let keys = keys.max(1) as u64;
+    log.figure("memory_keystrokes", keys);
+    log.figure("memory_keystroke_plain_mean", plain_sum / keys);
+    log.figure("memory_keystroke_learning_mean", learning_sum / keys);
+    log.figure(
+        "memory_added_per_keystroke_mean",
+        learning_sum.saturating_sub(plain_sum) / keys,
+    );
+    log.figure("memory_added_per_keystroke_max", added_max);
+    log.figure("memory_save_instructions_mean", save_sum / saves.max(1));
+
+    // Reboot: the memory and the store are gone; only the flash's bytes remain.
+    let saved = memory.clone();
+    memory.clear();
+    let flash = store.into_flash();
+    let start = clock.ticks();
+    let mut store = match FlashStore::new(flash, 0..FLASH_BYTES as u32) {
+        Ok(store) => store,
+        Err(e) => fail(&mut log, "flash store after reboot", &e, ExitCode::Internal),
+    };
+    if let Err(e) = store.load(rebooted) {
+        fail(&mut log, "loading after reboot", &e, ExitCode::Internal)
+    }
+    log.figure("memory_load_instructions", since(start));
+    log.figure("memory_words_restored", rebooted.len() as u64);
+    let same = rebooted.len() == saved.len()
+        && rebooted.words().iter().zip(saved.words()).all(|(a, b)| {
+            a.text() == b.text() && a.count() == b.count() && a.last_used() == b.last_used()
+        });
+    if !same {
+        log.note("the memory read back after the reboot differs from the one saved");
+        exit(ExitCode::Internal)
+    }
+    log.note("the memory survived the reboot");
+    exit(ExitCode::Success)
+}
