@@ -91,6 +91,12 @@ pub enum Error {
         /// The byte given.
         byte: u8,
     },
+    /// Buffers that are handed out once (a
+    /// [`StaticSessionBuffers`](crate::session::StaticSessionBuffers)) were taken before.
+    InUse {
+        /// Which buffers.
+        buffer: &'static str,
+    },
 }
 
 /// What is wrong with a tensor table entry (see [`Error::BadTensor`]).
@@ -196,6 +202,9 @@ impl fmt::Display for Error {
                     write!(f, "byte {byte:#04x}, number {number} of the keys pressed,")?;
                 }
                 f.write_str(" is not a letter key of the keypad layout")
+            }
+            Error::InUse { buffer } => {
+                write!(f, "`{buffer}` were taken before: they are handed out once")
             }
         }
     }

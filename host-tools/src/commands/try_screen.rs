@@ -22,11 +22,13 @@ use crossterm::style::Print;
 use crossterm::terminal::{self, ClearType};
 use crossterm::{cursor, execute, queue};
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{SearchOptions, Session, Suggestions, DEFAULT_MAX_STEPS};
+use inkling_core::session::{
+    SearchOptions, Session, Suggestions, DEFAULT_HISTORY, DEFAULT_MAX_STEPS,
+};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::SessionMemory;
+use crate::keystroke_savings::session_memory;
 use crate::model_file::ModelFile;
 
 /// Lines of typed text kept on the screen (the oldest scroll off).
@@ -302,8 +304,10 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
     };
     let terminal_error = HostError::io("the terminal");
     file.with_weights(|w| {
-        let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
-        let session = memory.session::<_, MAX_COUNT>(w).map_err(model_error)?;
+        let mut memory = session_memory(w.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(w)
+            .map_err(model_error)?;
         let mut screen = Screen {
             session,
             options: SearchOptions {
@@ -345,8 +349,10 @@ mod tests {
     fn a_short_terminal_keeps_the_line_being_typed() {
         let image = inkling_core::image::example::tiny_image();
         let model = inkling_core::Model::from_bytes(&image).unwrap();
-        let mut memory = SessionMemory::new(model.dims(), MAX_COUNT);
-        let session = memory.session::<_, MAX_COUNT>(model).unwrap();
+        let mut memory = session_memory(model.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
+            .unwrap();
         let mut screen = Screen {
             session,
             options: SearchOptions::new(3),
