@@ -34,7 +34,7 @@ head -n 8 "$here/typing.txt" >"$work/typing.txt"
   echo "# Written by tests/firmware/calibrate.sh; one shape a line, NAME=VALUE fields."
 } >"$work/calibration.txt"
 
-# Shapes: d_model d_inner d_state blocks. They fit the 128 KiB of RAM in memory.x with 3 beams.
+# Shapes: d_model d_inner d_state blocks. They fit the 128 KiB of RAM in firmware-example/memory/ with 3 beams.
 shapes=(
   "32 64 8 1"
   "64 128 16 1"

@@ -23,7 +23,7 @@ use inkling_tests::logits::kl_divergence;
 const SUGGESTIONS: usize = 3;
 /// The firmware's line buffer: longer lines are cut and the text cleared there.
 const LINE_CAPACITY: usize = 128;
-/// The flash and RAM of the part `firmware-example/memory.x` describes.
+/// The flash and RAM of the part `firmware-example/memory/` describes (for every core).
 const FLASH_BYTES: u64 = 512 * 1024;
 const RAM_BYTES: u64 = 128 * 1024;
 
