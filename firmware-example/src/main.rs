@@ -175,22 +175,23 @@ fn main() -> ! {
         );
     }
 
-    let mut scratch = match Scratch::new(&dims, &mut *work, &mut *act) {
-        Ok(scratch) => scratch,
-        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
-    };
-    // One engine step, alone, on the same borrowed state.
-    state.fill(0.0);
-    let start = clock.ticks();
-    for &b in BENCH_TEXT {
-        if let Err(e) = step(&model, state, &mut scratch, b) {
-            fail(&mut log, "engine step", &e, ExitCode::Internal)
+    // One engine step, alone, on the same borrowed state, in a scratch of its own.
+    let step_instructions = {
+        let mut scratch = match Scratch::new(&dims, &mut *work, &mut *act) {
+            Ok(scratch) => scratch,
+            Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
+        };
+        state.fill(0.0);
+        let start = clock.ticks();
+        for &b in BENCH_TEXT {
+            if let Err(e) = step(&model, state, &mut scratch, b) {
+                fail(&mut log, "engine step", &e, ExitCode::Internal)
+            }
         }
-    }
-    let step_instructions = since(start) / BENCH_TEXT.len() as u64;
+        since(start) / BENCH_TEXT.len() as u64
+    };
     log.figure("step_instructions", step_instructions);
 
-    drop(scratch);
     let mut session: Session<_, SUGGESTIONS> = match buffers.session(model) {
         Ok(session) => session,
         Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
