@@ -27,15 +27,18 @@ fn main() {
 
     // The memory layout for the target's core, as memory.x next to link.x (from cortex-m-rt
     // or riscv-rt), so `-Tlink.x` finds it. (Not in this folder: the linker would look here
-    // first.)
-    let layout = match env::var("CARGO_CFG_TARGET_ARCH").as_deref() {
-        Ok("riscv32") => "memory/riscv.x",
-        _ => "memory/cortex-m.x",
-    };
-    fs::copy(manifest.join(layout), out.join("memory.x"))
-        .unwrap_or_else(|e| panic!("{layout}: {e}"));
-    println!("cargo:rustc-link-search={}", out.display());
-    println!("cargo:rerun-if-changed={layout}");
+    // first.) A board profile that runs this script has its own memory.x in its folder, or
+    // its HAL's.
+    if manifest.join("memory").is_dir() {
+        let layout = match env::var("CARGO_CFG_TARGET_ARCH").as_deref() {
+            Ok("riscv32") => "memory/riscv.x",
+            _ => "memory/cortex-m.x",
+        };
+        fs::copy(manifest.join(layout), out.join("memory.x"))
+            .unwrap_or_else(|e| panic!("{layout}: {e}"));
+        println!("cargo:rustc-link-search={}", out.display());
+        println!("cargo:rerun-if-changed={layout}");
+    }
     if env::var_os("CARGO_FEATURE_DEFMT").is_some() {
         println!("cargo:rustc-link-arg-bins=-Tdefmt.x");
     }

@@ -7,17 +7,12 @@
 //! loop of known length. Instruction counts are not cycles: on a board, count cycles with
 //! the DWT cycle counter on the M4 (`DWT::cycle_count`, which reads 0 under QEMU) or SysTick
 //! from the core clock on the M0+ (which has no DWT counter).
-//!
-//! SysTick is 24 bits wide and wraps every 2^24 ticks (0.67 s of virtual time); its
-//! exception counts the wraps so that long measurements stay right.
 
 use core::ptr::addr_of;
-use core::sync::atomic::{AtomicU32, Ordering};
 
-use cortex_m::peripheral::syst::SystClkSource;
-use cortex_m::peripheral::{SCB, SYST};
 use cortex_m_rt::{exception, ExceptionFrame};
 
+pub use crate::systick_clock::SysTickClock as InstructionClock;
 pub use cortex_m_rt::entry;
 
 use super::exit::{fault, ExitCode};
@@ -30,57 +25,9 @@ pub const CORE: &str = "cortex-m4f";
 #[cfg(not(target_feature = "dsp"))]
 pub const CORE: &str = "cortex-m0plus";
 
-const RELOAD: u32 = 0x00FF_FFFF;
-
-/// SysTick wraps so far (a load and a store: the M0+ has no atomic read-modify-write, and
-/// the reader masks the exception).
-static WRAPS: AtomicU32 = AtomicU32::new(0);
-
-#[exception]
-fn SysTick() {
-    WRAPS.store(WRAPS.load(Ordering::Relaxed) + 1, Ordering::Relaxed);
-}
-
 #[exception]
 unsafe fn HardFault(frame: &ExceptionFrame) -> ! {
     fault(b"hard fault", frame.pc(), ExitCode::Fault)
-}
-
-/// SysTick as a free-running 64-bit tick counter.
-pub struct InstructionClock {
-    _syst: SYST,
-}
-
-impl InstructionClock {
-    /// Starts SysTick from the core clock, counting down from the top, with its wrap
-    /// exception enabled; `None` if the core peripherals were taken before.
-    pub fn start() -> Option<Self> {
-        let mut syst = cortex_m::Peripherals::take()?.SYST;
-        syst.disable_counter();
-        syst.set_clock_source(SystClkSource::Core);
-        syst.set_reload(RELOAD);
-        syst.clear_current();
-        syst.enable_interrupt();
-        syst.enable_counter();
-        // The counter loads the reload value on its first tick after being cleared.
-        while SYST::get_current() == 0 {}
-        Some(InstructionClock { _syst: syst })
-    }
-
-    /// Ticks since [`InstructionClock::start`].
-    pub fn ticks(&self) -> u64 {
-        cortex_m::interrupt::free(|_| {
-            let mut wraps = WRAPS.load(Ordering::Relaxed);
-            let mut current = SYST::get_current();
-            if SCB::is_pendst_pending() {
-                // It wrapped and the exception is still waiting: count that wrap, and read
-                // again since the first read may have been from before it.
-                wraps += 1;
-                current = SYST::get_current();
-            }
-            u64::from(wraps) * (u64::from(RELOAD) + 1) + u64::from(RELOAD - current)
-        })
-    }
 }
 
 /// Runs a loop of exactly `2 * CALIBRATION_LOOPS` instructions (`subs`, `bne`) and returns
