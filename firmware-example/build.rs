@@ -1,7 +1,8 @@
-//! Puts the memory layout of the target's core (`memory/cortex-m.x` for Arm, `memory/riscv.x`
-//! for RISC-V) on the linker's search path as `memory.x`, and picks the model image that is built into
-//! flash: the file named by `INKLING_IMAGE` (relative paths are taken from this folder), or
-//! `../models/demo.inkl`, the bundled demo model.
+//! Puts the memory layout of the target's core (`memory/cortex-m.x` for Arm,
+//! `memory/riscv.x` for RISC-V) on the linker's search path as `memory.x`, and picks the model
+//! image that is built into flash: the file named by `INKLING_IMAGE` (relative paths are taken
+//! from the package's folder), or `../models/demo.inkl`, the bundled demo model. The board
+//! profiles (`boards/`) run this script too, for their image and buffer sizes.
 
 use std::env;
 use std::fs;
@@ -21,14 +22,21 @@ const SUGGESTIONS: usize = 3;
 const PREFILL_CHUNK: usize = 4;
 
 fn main() {
+    // The library alone, built for a board profile (its `qemu` feature off), needs neither
+    // an image nor a memory layout: the profile's own run of this script gives them.
+    let library_only = env::var("CARGO_PKG_NAME").is_ok_and(|p| p == "inkling-firmware-example")
+        && env::var_os("CARGO_FEATURE_QEMU").is_none();
+    if library_only {
+        return;
+    }
     let manifest =
         PathBuf::from(env::var_os("CARGO_MANIFEST_DIR").expect("cargo sets CARGO_MANIFEST_DIR"));
     let out = PathBuf::from(env::var_os("OUT_DIR").expect("cargo sets OUT_DIR"));
 
     // The memory layout for the target's core, as memory.x next to link.x (from cortex-m-rt
     // or riscv-rt), so `-Tlink.x` finds it. (Not in this folder: the linker would look here
-    // first.) A board profile that runs this script has its own memory.x in its folder, or
-    // its HAL's.
+    // first.) A board profile that runs this script (`boards/`) has its own memory.x in its
+    // folder, or its HAL's.
     if manifest.join("memory").is_dir() {
         let layout = match env::var("CARGO_CFG_TARGET_ARCH").as_deref() {
             Ok("riscv32") => "memory/riscv.x",
