@@ -5,8 +5,9 @@
 # largest: for typed bytes to the first suggestions shown and to the end of the search, and
 # for 12-key presses with `keys`) and per byte of
 # prefill, flash and RAM from the linker's sections, and the stack high-water mark. Then it
-# runs kernel_count: the SMLAD kernel checked against the portable one, and its instructions
-# per multiply-accumulate.
+# runs kernel_count: the core's matrix-vector kernel (SMLAD on the Cortex-M4F, the portable
+# one elsewhere) checked against the portable one, and its instructions per
+# multiply-accumulate.
 #
 # usage: tests/firmware/run.sh [--core cortex-m4f|cortex-m0plus|riscv32imc]
 #                              [--profile release|release-o3] [--input FILE] [--out DIR]
@@ -21,7 +22,7 @@
 #   --input      the typed bytes; each line is one typing session, each byte a keystroke,
 #                0x08 or 0x7f a backspace. Default: typing.txt next to this script on the
 #                Cortex-M4F, and its first SHORT_LINES lines on the cores without an FPU
-#                (their soft float makes a step about 12 to 20 times longer; the lines they
+#                (their soft float makes a step about 14 to 24 times longer; the lines they
 #                type give the same suggestion lines as the first lines of the full run)
 #   --out        keep the results there: suggestions.txt (the firmware's standard output),
 #                figures.txt (NAME VALUE per line), log.txt (its status log),
