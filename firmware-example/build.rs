@@ -1,6 +1,8 @@
-//! Puts `memory.x` on the linker's search path and picks the model image that is built into
-//! flash: the file named by `INKLING_IMAGE` (relative paths are taken from this folder), or
-//! `../models/demo.inkl`, the bundled demo model.
+//! Puts the memory layout of the target's core (`memory/cortex-m.x` for Arm,
+//! `memory/riscv.x` for RISC-V) on the linker's search path as `memory.x`, and picks the model
+//! image that is built into flash: the file named by `INKLING_IMAGE` (relative paths are taken
+//! from the package's folder), or `../models/demo.inkl`, the bundled demo model. The board
+//! profiles (`boards/`) run this script too, for their image and buffer sizes.
 
 use std::env;
 use std::fs;
@@ -20,14 +22,31 @@ const SUGGESTIONS: usize = 3;
 const PREFILL_CHUNK: usize = 4;
 
 fn main() {
+    // The library alone, built for a board profile (its `qemu` feature off), needs neither
+    // an image nor a memory layout: the profile's own run of this script gives them.
+    let library_only = env::var("CARGO_PKG_NAME").is_ok_and(|p| p == "inkling-firmware-example")
+        && env::var_os("CARGO_FEATURE_QEMU").is_none();
+    if library_only {
+        return;
+    }
     let manifest =
         PathBuf::from(env::var_os("CARGO_MANIFEST_DIR").expect("cargo sets CARGO_MANIFEST_DIR"));
     let out = PathBuf::from(env::var_os("OUT_DIR").expect("cargo sets OUT_DIR"));
 
-    // memory.x next to link.x (from cortex-m-rt), so `-Tlink.x` finds it.
-    fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("memory.x is missing");
-    println!("cargo:rustc-link-search={}", out.display());
-    println!("cargo:rerun-if-changed=memory.x");
+    // The memory layout for the target's core, as memory.x next to link.x (from cortex-m-rt
+    // or riscv-rt), so `-Tlink.x` finds it. (Not in this folder: the linker would look here
+    // first.) A board profile that runs this script (`boards/`) has its own memory.x in its
+    // folder, or its HAL's.
+    if manifest.join("memory").is_dir() {
+        let layout = match env::var("CARGO_CFG_TARGET_ARCH").as_deref() {
+            Ok("riscv32") => "memory/riscv.x",
+            _ => "memory/cortex-m.x",
+        };
+        fs::copy(manifest.join(layout), out.join("memory.x"))
+            .unwrap_or_else(|e| panic!("{layout}: {e}"));
+        println!("cargo:rustc-link-search={}", out.display());
+        println!("cargo:rerun-if-changed={layout}");
+    }
     if env::var_os("CARGO_FEATURE_DEFMT").is_some() {
         println!("cargo:rustc-link-arg-bins=-Tdefmt.x");
     }
@@ -47,18 +66,20 @@ fn main() {
     println!("cargo:rerun-if-changed={}", image.display());
     println!("cargo:rustc-env=INKLING_IMAGE_FILE={}", image.display());
     if on_device {
-        write_buffer_sizes(&image, &out.join("buffer_sizes.rs"));
+        write_buffer_sizes(&image, &out);
     }
 }
 
 /// Validates the image now (a bad one fails the build, not the device) and writes the
-/// sizes of the buffers it needs, so RAM is exactly what this model takes.
+/// sizes of the buffers it needs, so RAM is exactly what this model takes: a session's
+/// (`session_sizes.rs`, every program) and the prefill passes' the harness measures
+/// (`harness_sizes.rs`).
 fn write_buffer_sizes(image: &Path, out: &Path) {
     let bytes = fs::read(image).unwrap_or_else(|e| panic!("reading {}: {e}", image.display()));
     let model = inkling_core::Model::from_bytes(&bytes)
         .unwrap_or_else(|e| panic!("{} is not a valid model image: {e}", image.display()));
     let dims = model.dims();
-    let text = format!(
+    let session = format!(
         "/// Suggestions per keystroke (beams of the session).\n\
          const SUGGESTIONS: usize = {SUGGESTIONS};\n\
          /// f32 elements of the session's buffer (live, snapshot, {SUGGESTIONS} beams) for the \
@@ -66,15 +87,22 @@ fn write_buffer_sizes(image: &Path, out: &Path) {
          const SESSION_FLOATS: usize = {};\n\
          /// f32 elements of engine work space for the built-in image, one byte a pass.\n\
          const WORK_LEN: usize = {};\n\
-         /// f32 elements of engine work space for prefill passes of {PREFILL_CHUNK} bytes.\n\
-         const CHUNK_WORK_LEN: usize = {};\n\
-         /// i16 elements of activation scratch for the built-in image, prefill passes \
-         included.\n\
+         /// i16 elements of activation scratch for the built-in image, one byte a pass.\n\
          const ACT_LEN: usize = {};\n",
         dims.session_floats(SUGGESTIONS),
         dims.work_len(),
+        dims.act_len(),
+    );
+    let harness = format!(
+        "/// f32 elements of engine work space for prefill passes of {PREFILL_CHUNK} bytes.\n\
+         const CHUNK_WORK_LEN: usize = {};\n\
+         /// i16 elements of activation scratch for prefill passes of {PREFILL_CHUNK} bytes.\n\
+         const CHUNK_ACT_LEN: usize = {};\n",
         dims.chunk_work_len(PREFILL_CHUNK),
         dims.chunk_act_len(PREFILL_CHUNK),
     );
-    fs::write(out, text).unwrap_or_else(|e| panic!("writing {}: {e}", out.display()));
+    for (name, text) in [("session_sizes.rs", session), ("harness_sizes.rs", harness)] {
+        let path = out.join(name);
+        fs::write(&path, text).unwrap_or_else(|e| panic!("writing {}: {e}", path.display()));
+    }
 }

@@ -91,6 +91,12 @@ pub enum Error {
         /// The byte given.
         byte: u8,
     },
+    /// Buffers that are handed out once (a
+    /// [`StaticSessionBuffers`](crate::session::StaticSessionBuffers)) were taken before.
+    InUse {
+        /// Which buffers.
+        buffer: &'static str,
+    },
     /// The user memory's flash store failed (see
     /// [`FlashStore`](crate::user_memory::FlashStore)).
     MemoryFlash {
@@ -245,6 +251,9 @@ impl fmt::Display for Error {
                 f.write_str(" is not a letter key of the keypad layout")
             }
             Error::MemoryFlash { problem } => write!(f, "user memory flash store: {problem}"),
+            Error::InUse { buffer } => {
+                write!(f, "`{buffer}` were taken before: they are handed out once")
+            }
         }
     }
 }

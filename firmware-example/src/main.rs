@@ -1,4 +1,6 @@
-//! Word completion on a Cortex-M4F, typed input in, suggestions out.
+//! The measurement harness: word completion on a microcontroller (Cortex-M4F, Cortex-M0+ or
+//! RV32IMC, the same program for each), typed input in, suggestions out, every part timed.
+//! The program to start from is `src/bin/minimal.rs`; this one adds the measurements.
 //!
 //! Reads typed bytes from the host (semihosting standard input), line by line. Each byte of a
 //! line is one keystroke (0x08 and 0x7F are backspace); after each, it writes one line: the
@@ -7,39 +9,39 @@
 //! Each keystroke's instructions go to the status log (`figure keystroke N`). When the
 //! input ends it types the same lines again as 12-key entry (each key press a
 //! `Session::keys` call, `figure keypress N`), measures the engine and reports the figures
-//! on the status log, then exits QEMU with status 0.
+//! on the status log, then exits QEMU with status 0. What differs between the cores is in
+//! the library's `device` module.
 //!
 //! The model image is built in from flash (`INKLING_IMAGE` at build time) and never copied;
 //! all RAM is in statics sized from the image's dimensions, plus the stack.
 #![no_std]
 #![no_main]
 
-mod exit;
-mod instruction_clock;
-mod semihosting_io;
 mod stack_paint;
 mod status_log;
 mod step_split;
 
-use cortex_m_rt::entry;
 use inkling_core::engine::recurrence::{prefill, step};
-use inkling_core::session::{is_boundary, KeyMap, SearchOptions, Session, MAX_WORD_LEN};
+use inkling_core::session::{
+    is_boundary, KeyMap, SearchOptions, Session, StaticSessionBuffers, MAX_WORD_LEN,
+};
 use inkling_core::{Model, Scratch};
+use inkling_firmware_example::device::exit::{exit, ExitCode};
+use inkling_firmware_example::device::semihosting_io::{HostInput, HostOutput};
+use inkling_firmware_example::device::{calibrate, entry, InstructionClock, CALIBRATION_LOOPS};
 use inkling_firmware_example::line_reader::LineReader;
 use inkling_firmware_example::suggestion_line::write_line;
 
-use exit::{exit, ExitCode};
-use instruction_clock::{calibrate, InstructionClock, CALIBRATION_LOOPS};
-use semihosting_io::{HostInput, HostOutput};
 use status_log::StatusLog;
 
 // The defmt transport: frames on semihosting standard output.
 #[cfg(feature = "defmt")]
 use defmt_semihosting as _;
 
-// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, CHUNK_WORK_LEN, ACT_LEN: from the
-// image's dimensions.
-include!(concat!(env!("OUT_DIR"), "/buffer_sizes.rs"));
+// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: a session's, from the image's dimensions.
+include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
+// CHUNK_WORK_LEN, CHUNK_ACT_LEN: the prefill passes measured here.
+include!(concat!(env!("OUT_DIR"), "/harness_sizes.rs"));
 
 /// Bytes aligned to 16, as the image's payloads expect for direct word loads.
 #[repr(C, align(16))]
@@ -48,10 +50,16 @@ struct Aligned<T: ?Sized>(T);
 /// The model image, in flash.
 static IMAGE: &Aligned<[u8]> = &Aligned(*include_bytes!(env!("INKLING_IMAGE_FILE")));
 
+/// Activation scratch for a session and for the prefill passes, whichever needs more.
+const HARNESS_ACT_LEN: usize = if CHUNK_ACT_LEN > ACT_LEN {
+    CHUNK_ACT_LEN
+} else {
+    ACT_LEN
+};
+
 /// The session's states, the engine's work space and its activation scratch, in RAM (.bss).
-static mut SESSION_STATES: [f32; SESSION_FLOATS] = [0.0; SESSION_FLOATS];
-static mut WORK: [f32; WORK_LEN] = [0.0; WORK_LEN];
-static mut ACT: [i16; ACT_LEN] = [0; ACT_LEN];
+static BUFFERS: StaticSessionBuffers<SESSION_FLOATS, WORK_LEN, HARNESS_ACT_LEN> =
+    StaticSessionBuffers::new();
 
 /// Longest line of typed text; a longer line is cut, and the text cleared there.
 const LINE_CAPACITY: usize = 128;
@@ -105,10 +113,10 @@ fn main() -> ! {
     stack_paint::paint();
     let mut log = StatusLog::open();
     log.note("inkling firmware example: reading typed bytes from the host");
-    let Some(core) = cortex_m::Peripherals::take() else {
+    let Some(clock) = InstructionClock::start() else {
         exit(ExitCode::Internal)
     };
-    let clock = InstructionClock::start(core.SYST);
+    log.note(inkling_firmware_example::device::CORE);
 
     // Instructions per SysTick tick, checked on a loop of known length.
     let calibration_ticks = calibrate(&clock);
@@ -130,20 +138,17 @@ fn main() -> ! {
     log.figure("state_bytes", dims.state_bytes() as u64);
     log.figure("session_buffer_bytes", 4 * SESSION_FLOATS as u64);
     log.figure("scratch_bytes", dims.scratch_bytes() as u64);
-    let statics = 4 * (SESSION_FLOATS + WORK_LEN) + 2 * ACT_LEN;
+    let statics = 4 * (SESSION_FLOATS + WORK_LEN) + 2 * HARNESS_ACT_LEN;
     log.figure("ram_buffers_bytes", statics as u64);
 
-    // SAFETY: the only references to these statics, taken once; no interrupt touches them.
-    let (states, work, act) = unsafe {
-        (
-            &mut *core::ptr::addr_of_mut!(SESSION_STATES),
-            &mut *core::ptr::addr_of_mut!(WORK),
-            &mut *core::ptr::addr_of_mut!(ACT),
-        )
+    let buffers = match BUFFERS.take() {
+        Ok(buffers) => buffers,
+        Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
     };
+    let (states, work, act) = (&mut buffers.floats, &mut buffers.work, &mut buffers.act);
 
     // The parts of a step, timed one by one in the engine's own scratch before it takes it.
-    let split = step_split::measure(&model, &clock, per_tick, work, act);
+    let split = step_split::measure(&model, &clock, per_tick, &mut *work, &mut *act);
     log.figure("step_macs", dims.macs_per_step() as u64);
     log.figure("step_matvec_instructions", split.matvec);
     log.figure("step_quantise_instructions", split.quantise);
@@ -170,22 +175,24 @@ fn main() -> ! {
         );
     }
 
-    let mut scratch = match Scratch::new(&dims, work, act) {
-        Ok(scratch) => scratch,
-        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
-    };
-    // One engine step, alone, on the same borrowed state.
-    state.fill(0.0);
-    let start = clock.ticks();
-    for &b in BENCH_TEXT {
-        if let Err(e) = step(&model, state, &mut scratch, b) {
-            fail(&mut log, "engine step", &e, ExitCode::Internal)
+    // One engine step, alone, on the same borrowed state, in a scratch of its own.
+    let step_instructions = {
+        let mut scratch = match Scratch::new(&dims, &mut *work, &mut *act) {
+            Ok(scratch) => scratch,
+            Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
+        };
+        state.fill(0.0);
+        let start = clock.ticks();
+        for &b in BENCH_TEXT {
+            if let Err(e) = step(&model, state, &mut scratch, b) {
+                fail(&mut log, "engine step", &e, ExitCode::Internal)
+            }
         }
-    }
-    let step_instructions = since(start) / BENCH_TEXT.len() as u64;
+        since(start) / BENCH_TEXT.len() as u64
+    };
     log.figure("step_instructions", step_instructions);
 
-    let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {
+    let mut session: Session<_, SUGGESTIONS> = match buffers.session(model) {
         Ok(session) => session,
         Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
     };

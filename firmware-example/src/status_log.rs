@@ -7,9 +7,9 @@
 //! failed write is dropped.
 
 #[cfg(not(feature = "defmt"))]
-use crate::semihosting_io::HostOutput;
-#[cfg(not(feature = "defmt"))]
 use embedded_io::Write;
+#[cfg(not(feature = "defmt"))]
+use inkling_firmware_example::device::semihosting_io::HostOutput;
 #[cfg(not(feature = "defmt"))]
 use inkling_firmware_example::number_text::{decimal_u64, U64_DIGITS};
 

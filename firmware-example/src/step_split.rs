@@ -11,7 +11,7 @@ use inkling_core::engine::nonlinear::exp2_nonpositive;
 use inkling_core::image::format::Role;
 use inkling_core::Model;
 
-use crate::instruction_clock::InstructionClock;
+use inkling_firmware_example::device::InstructionClock;
 
 /// Repetitions of each timed part (SysTick resolution is 40 instructions).
 const REPEATS: u64 = 8;

@@ -1,19 +1,29 @@
 #!/usr/bin/env bash
-# Builds the firmware example, runs it on an emulated Cortex-M4F (QEMU mps2-an386) with
-# scripted typing piped in, and prints its figures: instructions per step (and its split into
+# Builds the firmware example for one core, runs it under QEMU with scripted typing piped in,
+# and prints its figures: instructions per step (and its split into
 # matrix products, quantisation, scan exponentials), per keystroke (mean, 95th percentile and
 # largest: for typed bytes to the first suggestions shown and to the end of the search, and
 # for 12-key presses with `keys`) and per byte of
 # prefill, flash and RAM from the linker's sections, and the stack high-water mark. Then it
-# runs kernel_count: the SMLAD kernel checked against the portable one, and its instructions
-# per multiply-accumulate.
+# runs kernel_count: the core's matrix-vector kernel (SMLAD on the Cortex-M4F, the portable
+# one elsewhere) checked against the portable one, and its instructions per
+# multiply-accumulate.
 #
-# usage: tests/firmware/run.sh [--profile release|release-o3] [--input FILE] [--out DIR]
+# usage: tests/firmware/run.sh [--core cortex-m4f|cortex-m0plus|riscv32imc]
+#                              [--profile release|release-o3] [--input FILE] [--out DIR]
 #                              [--skip-unit]
+#   --core       the core (default cortex-m4f): cortex-m4f builds for thumbv7em-none-eabihf
+#                and runs on mps2-an386; cortex-m0plus builds for thumbv6m-none-eabi and runs
+#                on mps2-an385 (a Cortex-M3: ARMv6-M code is a subset of ARMv7-M);
+#                riscv32imc builds for riscv32imc-unknown-none-elf and runs on virt. The
+#                QEMU command of each is the runner in firmware-example/.cargo/config.toml.
 #   --profile    cargo profile of the firmware build: release (opt-level "s", the default)
 #                or release-o3 (opt-level 3)
-#   --input      the typed bytes (default: typing.txt next to this script); each line is one
-#                typing session, each byte a keystroke, 0x08 or 0x7f a backspace
+#   --input      the typed bytes; each line is one typing session, each byte a keystroke,
+#                0x08 or 0x7f a backspace. Default: typing.txt next to this script on the
+#                Cortex-M4F, and its first SHORT_LINES lines on the cores without an FPU
+#                (their soft float makes a step about 14 to 24 times longer; the lines they
+#                type give the same suggestion lines as the first lines of the full run)
 #   --out        keep the results there: suggestions.txt (the firmware's standard output),
 #                figures.txt (NAME VALUE per line), log.txt (its status log),
 #                keystrokes.txt, keystroke_totals.txt and keypresses.txt (instructions of
@@ -24,12 +34,16 @@ set -euo pipefail
 
 here=$(cd "$(dirname "$0")" && pwd)
 firmware="$here/../../firmware-example"
+core=cortex-m4f
 profile=release
-input="$here/typing.txt"
+input=""
 out=""
 unit=1
+# Lines of typing.txt the cores without an FPU type by default (54 keystrokes).
+SHORT_LINES=4
 while [ $# -gt 0 ]; do
   case "$1" in
+    --core) core=$2; shift 2 ;;
     --profile) profile=$2; shift 2 ;;
     --input) input=$2; shift 2 ;;
     --out) out=$2; shift 2 ;;
@@ -38,8 +52,12 @@ while [ $# -gt 0 ]; do
   esac
 done
 case "$profile" in release|release-o3) ;; *) echo "run.sh: --profile must be release or release-o3" >&2; exit 2 ;; esac
-[ -f "$input" ] || { echo "run.sh: no input file $input" >&2; exit 2; }
-input=$(cd "$(dirname "$input")" && pwd)/$(basename "$input")
+case "$core" in
+  cortex-m4f) target=thumbv7em-none-eabihf; qemu=qemu-system-arm; qemu_package=qemu-system-arm ;;
+  cortex-m0plus) target=thumbv6m-none-eabi; qemu=qemu-system-arm; qemu_package=qemu-system-arm ;;
+  riscv32imc) target=riscv32imc-unknown-none-elf; qemu=qemu-system-riscv32; qemu_package=qemu-system-misc ;;
+  *) echo "run.sh: --core must be cortex-m4f, cortex-m0plus or riscv32imc" >&2; exit 2 ;;
+esac
 keep=1
 if [ -z "$out" ]; then
   out=$(mktemp -d)
@@ -47,17 +65,25 @@ if [ -z "$out" ]; then
   trap 'rm -rf "$out"' EXIT
 fi
 mkdir -p "$out"
+if [ -z "$input" ]; then
+  input="$here/typing.txt"
+  if [ "$core" != cortex-m4f ]; then
+    head -n "$SHORT_LINES" "$here/typing.txt" >"$out/typed.txt"
+    input="$out/typed.txt"
+  fi
+fi
+[ -f "$input" ] || { echo "run.sh: no input file $input" >&2; exit 2; }
+input=$(cd "$(dirname "$input")" && pwd)/$(basename "$input")
 
-target=thumbv7em-none-eabihf
 # The firmware's own target dir, whatever the caller's is: a cargo running this script (a
 # test) may hold the lock on its own.
 export CARGO_TARGET_DIR="$firmware/target"
 
-if ! command -v qemu-system-arm >/dev/null; then
-  echo "== installing qemu-system-arm" >&2
+if ! command -v "$qemu" >/dev/null; then
+  echo "== installing $qemu_package" >&2
   sudo=""
   [ "$(id -u)" -eq 0 ] || sudo=sudo
-  $sudo apt-get update -qq && $sudo apt-get install -y -qq qemu-system-arm >/dev/null
+  $sudo apt-get update -qq && $sudo apt-get install -y -qq "$qemu_package" >/dev/null
 fi
 if ! rustup target list --installed | grep -qx "$target"; then
   echo "== adding the rustup target $target" >&2
@@ -74,17 +100,19 @@ if [ "$unit" -eq 1 ]; then
   cargo test -j 2 --quiet --lib --target "$host" >&2
 fi
 
-echo "== building the firmware (profile $profile)" >&2
-cargo build -j 2 --quiet --profile "$profile"
+echo "== building the firmware for $core ($target, profile $profile)" >&2
+cargo build -j 2 --quiet --profile "$profile" --target "$target"
 elf="$CARGO_TARGET_DIR/$target/$profile/inkling-firmware-example"
 
-echo "== running it in QEMU" >&2
-# Typed input reaches the firmware through semihosting; QEMU itself must not read stdin.
+echo "== running it in QEMU ($qemu)" >&2
+# `cargo run` starts the core's runner from .cargo/config.toml (cargo replaces itself with
+# it, so its exit status is the firmware's). Typed input reaches the firmware through
+# semihosting; QEMU itself must not read stdin.
+run() {
+  timeout "$1" cargo run -q --profile "$profile" --target "$target" --bin "$2"
+}
 status=0
-timeout 600 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
-  -display none -serial none -monitor none \
-  -semihosting-config enable=on,target=native -icount shift=0 \
-  -kernel "$elf" <"$input" >"$out/suggestions.txt" 2>"$out/log.txt" || status=$?
+run 900 inkling-firmware-example <"$input" >"$out/suggestions.txt" 2>"$out/log.txt" || status=$?
 if [ "$status" -ne 0 ]; then
   echo "run.sh: the firmware exited with status $status (124: timed out)" >&2
   cat "$out/log.txt" >&2
@@ -109,12 +137,9 @@ spread keypress "$out/keypresses.txt" >>"$out/figures.txt"
 
 echo "== counting the matrix-vector kernel alone in QEMU (kernel_count)" >&2
 status=0
-timeout 120 qemu-system-arm -machine mps2-an386 -cpu cortex-m4 \
-  -display none -serial none -monitor none \
-  -semihosting-config enable=on,target=native -icount shift=0 \
-  -kernel "$CARGO_TARGET_DIR/$target/$profile/kernel_count" </dev/null >/dev/null 2>"$out/kernel_log.txt" || status=$?
+run 300 kernel_count </dev/null >/dev/null 2>"$out/kernel_log.txt" || status=$?
 if [ "$status" -ne 0 ]; then
-  echo "run.sh: kernel_count exited with status $status (4: the SMLAD kernel differs from the portable one)" >&2
+  echo "run.sh: kernel_count exited with status $status (4: the core's kernel differs from the portable one)" >&2
   cat "$out/kernel_log.txt" >&2
   exit 1
 fi
@@ -125,8 +150,16 @@ awk '$1 == "step_instructions" { s = $2 } $1 == "step_macs" { m = $2 }
   "$out/figures.txt" >>"$out/figures.txt"
 # Sections: text (code and the model image, in flash), data (initial values in flash, live
 # in RAM), bss (zeroed RAM).
+# Summed by section name: the plain llvm-size totals would count riscv-rt's .stack (the free
+# RAM left to the stack) as bss.
 size_tool=$(ls "$(rustc --print sysroot)"/lib/rustlib/*/bin/llvm-size | head -n 1)
-read -r text data bss _ < <("$size_tool" "$elf" | tail -n 1)
+read -r text data bss < <("$size_tool" -A "$elf" | awk '
+  NR <= 2 || NF < 3 { next }
+  $1 == ".data" { d += $2; next }
+  $1 == ".bss" || $1 == ".uninit" { b += $2; next }
+  $1 ~ /^\.(debug|comment|symtab|strtab|shstrtab|heap$|stack$)/ || $1 ~ /attributes$/ { next }
+  { t += $2 }
+  END { print t + 0, d + 0, b + 0 }')
 {
   echo "flash_text_bytes $text"
   echo "flash_data_bytes $data"
@@ -137,7 +170,7 @@ read -r text data bss _ < <("$size_tool" "$elf" | tail -n 1)
   echo "ram_total_bytes $((data + bss + stack))"
 } >>"$out/figures.txt"
 
-echo "== figures (profile $profile; instruction counts, not cycles)"
+echo "== figures ($core, profile $profile; instruction counts, not cycles)"
 cat "$out/figures.txt"
 echo "== suggestions: $(wc -l <"$out/suggestions.txt") lines (one per keystroke)"
 [ "$keep" -eq 0 ] || echo "== results kept in $out"

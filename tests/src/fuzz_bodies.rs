@@ -12,12 +12,10 @@ use std::path::Path;
 use inkling_core::image::checksum::crc32;
 use inkling_core::image::example::tiny_image;
 use inkling_core::image::format::{Role, CRC_LEN, VOCAB};
-use inkling_core::session::{SearchOptions, Session, WordList, MAX_WORD_LEN};
+use inkling_core::session::{SearchOptions, Session, SessionBuffers, WordList, MAX_WORD_LEN};
 use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
-use inkling_core::{Engine, Error, KeyMap, Model, Scratch, Suggestions};
+use inkling_core::{Dims, Engine, Error, KeyMap, Model, Scratch, Suggestions};
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
-
-use crate::session_buffers::SessionBuffers;
 
 /// A fuzz target's body: any bytes in, a panic for a finding.
 pub type Body = fn(&[u8]);
@@ -126,8 +124,10 @@ pub fn engine_run(data: &[u8]) {
     }
     let _ = engine.most_likely_byte();
 
-    let mut buffers = SessionBuffers::<BEAMS>::new(&dims);
-    let mut session = buffers.session::<HISTORY>(model);
+    let mut buffers = heap_buffers(&dims);
+    let mut session = buffers
+        .session::<_, BEAMS, HISTORY>(model)
+        .expect("buffers sized by the model");
     let options = search_options(BEAMS);
     let mut searches = 0;
     for &b in text {
@@ -153,8 +153,10 @@ pub fn session_edits(data: &[u8]) {
     let image = tiny_image();
     let model = Model::from_bytes(&image).expect("the example image loads");
     let dims = *model.dims();
-    let mut buffers = SessionBuffers::<BEAMS>::new(&dims);
-    let mut session = buffers.session::<HISTORY>(model);
+    let mut buffers = heap_buffers(&dims);
+    let mut session = buffers
+        .session::<_, BEAMS, HISTORY>(model)
+        .expect("buffers sized by the model");
     // The text the state should stand for.
     let mut seen: Vec<u8> = Vec::new();
     let mut input = data.iter().copied();
@@ -206,8 +208,10 @@ pub fn session_edits(data: &[u8]) {
         assert!(session.logits().iter().all(|v| v.is_finite()));
         assert!(session.word().len() <= MAX_WORD_LEN && session.history().len() <= HISTORY);
     }
-    let mut fresh_buffers = SessionBuffers::<BEAMS>::new(&dims);
-    let mut fresh = fresh_buffers.session::<HISTORY>(model);
+    let mut fresh_buffers = heap_buffers(&dims);
+    let mut fresh = fresh_buffers
+        .session::<_, BEAMS, HISTORY>(model)
+        .expect("buffers sized by the model");
     fresh
         .push_bytes(&seen)
         .expect("the text pushes as it did before");
@@ -247,8 +251,10 @@ fn backspace(session: &mut FuzzSession<'_>, seen: &mut Vec<u8>, model: Model<'_>
     // still counts) or, when the snapshot is older than the history, rebuilt from the
     // history alone; these differ only once text has fallen out of the history.
     let dims = *model.dims();
-    let mut fresh_buffers = SessionBuffers::<BEAMS>::new(&dims);
-    let mut fresh = fresh_buffers.session::<HISTORY>(model);
+    let mut fresh_buffers = heap_buffers(&dims);
+    let mut fresh = fresh_buffers
+        .session::<_, BEAMS, HISTORY>(model)
+        .expect("buffers sized by the model");
     fresh
         .push_bytes(seen)
         .expect("the text pushes as it did before");
@@ -314,6 +320,16 @@ fn bits(values: &[f32]) -> Vec<u32> {
 }
 
 /// The session every body runs.
+/// The core's session buffers over vectors sized for `dims` and `BEAMS` (the fuzz build has
+/// no workstation tools, whose helper does the same).
+fn heap_buffers(dims: &Dims) -> SessionBuffers<Vec<f32>, Vec<f32>, Vec<i16>> {
+    SessionBuffers::from_parts(
+        vec![0.0; dims.session_floats(BEAMS)],
+        vec![0.0; dims.work_len()],
+        vec![0; dims.act_len()],
+    )
+}
+
 type FuzzSession<'b> = Session<'b, Model<'b>, BEAMS, HISTORY>;
 
 /// Pages of the flash the `memory_flash` body reads.

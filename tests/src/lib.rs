@@ -9,7 +9,6 @@ pub mod inkling_cli;
 pub mod logits;
 pub mod numpy_reference;
 pub mod run_seed;
-pub mod session_buffers;
 
 /// About 40 bytes of mixed content: ASCII letters and digits, punctuation, tab and newline,
 /// two- and three-byte UTF-8 sequences. Valid UTF-8 without NUL so it can travel as an argument.

@@ -1,54 +1,94 @@
 //! `inkling budget`'s cost model against the firmware's own measurements: instruction counts
-//! of whole engine steps and keystrokes counted in QEMU (`tests/firmware/calibrate.sh`, exact
-//! under `-icount shift=0`), and image sizes written by `inkling convert` for the same shapes.
+//! of whole engine steps and keystrokes counted in QEMU on each core
+//! (`tests/firmware/calibrate.sh --core CORE`, exact under `-icount shift=0`), and image sizes
+//! written by `inkling convert` for the same shapes.
 
 use inkling_host::commands::budget::{fitting, milliseconds, parse_size, within_latency};
-use inkling_host::cost_model::{calibration, image_bytes, Calibration, CostModel};
+use inkling_host::cost_model::{image_bytes, Calibration, Core, CostModel};
 
+/// The Cortex-M4F's measurements (the default core).
 fn measured() -> Calibration {
-    Calibration::parse(calibration::BUILT_IN).expect("tests/firmware/calibration.txt reads")
+    measured_on(Core::CortexM4f)
+}
+
+fn measured_on(core: Core) -> Calibration {
+    Calibration::parse(core.measurements())
+        .unwrap_or_else(|e| panic!("the {} measurements read: {e}", core.name()))
 }
 
 #[test]
 fn step_predictions_are_within_15_percent_of_the_measured_counts() {
-    let cal = measured();
-    assert!(cal.samples.len() >= 3, "at least 3 measured shapes");
-    let model = CostModel::fit(&cal).expect("a fit");
-    for s in &cal.samples {
-        let predicted = model.step_instructions(&s.dims);
-        let measured = s.step_instructions as f64;
-        // The 15% bound is the task's acceptance level (common practice, no source).
+    for core in Core::ALL {
+        let cal = measured_on(core);
         assert!(
-            (predicted - measured).abs() <= 0.15 * measured,
-            "{:?}: predicted {predicted:.0}, measured {measured}",
-            s.dims
+            cal.samples.len() >= 3,
+            "{}: at least 3 measured shapes",
+            core.name()
         );
+        let model = CostModel::fit(&cal).expect("a fit");
+        for s in &cal.samples {
+            let predicted = model.step_instructions(&s.dims);
+            let measured = s.step_instructions as f64;
+            // The 15% bound is the task's acceptance level (common practice, no source).
+            assert!(
+                (predicted - measured).abs() <= 0.15 * measured,
+                "{} {:?}: predicted {predicted:.0}, measured {measured}",
+                core.name(),
+                s.dims
+            );
+        }
     }
 }
 
 #[test]
 fn keystroke_predictions_are_within_15_percent_at_the_measured_search_length() {
-    let cal = measured();
-    let model = CostModel::fit(&cal).expect("a fit");
-    for s in &cal.samples {
-        // With the sample's own search length, the overhead model alone is under test.
-        let over = model.search_overhead[0] + model.search_overhead[1] * s.dims.state_len() as f64;
-        let predicted =
-            (s.search_steps_mean as f64 + 1.0) * (model.step_instructions(&s.dims) + over);
-        let measured = s.keystroke_instructions_mean as f64;
-        assert!(
-            (predicted - measured).abs() <= 0.15 * measured,
-            "{:?}: predicted {predicted:.0}, measured {measured}",
-            s.dims
-        );
+    for core in Core::ALL {
+        let cal = measured_on(core);
+        let model = CostModel::fit(&cal).expect("a fit");
+        for s in &cal.samples {
+            // With the sample's own search length, the overhead model alone is under test.
+            let over =
+                model.search_overhead[0] + model.search_overhead[1] * s.dims.state_len() as f64;
+            let predicted =
+                (s.search_steps_mean as f64 + 1.0) * (model.step_instructions(&s.dims) + over);
+            let measured = s.keystroke_instructions_mean as f64;
+            assert!(
+                (predicted - measured).abs() <= 0.15 * measured,
+                "{} {:?}: predicted {predicted:.0}, measured {measured}",
+                core.name(),
+                s.dims
+            );
+        }
     }
 }
 
 #[test]
 fn image_size_is_what_convert_wrote() {
     // Exact: the firmware reported the size of the image `inkling convert` made.
-    for s in &measured().samples {
-        assert_eq!(image_bytes(&s.dims, false), s.image_bytes, "{:?}", s.dims);
+    for core in Core::ALL {
+        for s in &measured_on(core).samples {
+            assert_eq!(image_bytes(&s.dims, false), s.image_bytes, "{:?}", s.dims);
+        }
+    }
+}
+
+#[test]
+fn the_cores_without_an_fpu_cost_more_per_step() {
+    // Soft float (compiler-builtins' f32 routines, dozens of instructions per operation)
+    // against one FPU instruction per operation on the Cortex-M4F: the same shape must cost
+    // several times as many instructions per step (the factor: common practice, no source).
+    let m4 = CostModel::fit(&measured()).expect("a fit");
+    for core in [Core::CortexM0plus, Core::Riscv32imc] {
+        let model = CostModel::fit(&measured_on(core)).expect("a fit");
+        for s in &measured_on(core).samples {
+            let ratio = model.step_instructions(&s.dims) / m4.step_instructions(&s.dims);
+            assert!(
+                ratio > 4.0,
+                "{} {:?}: {ratio:.1} times",
+                core.name(),
+                s.dims
+            );
+        }
     }
 }
 

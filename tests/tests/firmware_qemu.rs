@@ -15,15 +15,15 @@ use inkling_core::engine::recurrence::step;
 use inkling_core::engine::state_store::{narrow, widen};
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
 use inkling_core::{Model, Scratch};
+use inkling_host::keystroke_savings::session_memory;
 use inkling_tests::inkling_cli::{run_json, suggest_json};
 use inkling_tests::logits::kl_divergence;
-use inkling_tests::session_buffers::SessionBuffers;
 
 /// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
 const SUGGESTIONS: usize = 3;
 /// The firmware's line buffer: longer lines are cut and the text cleared there.
 const LINE_CAPACITY: usize = 128;
-/// The flash and RAM of the part `firmware-example/memory.x` describes.
+/// The flash and RAM of the part `firmware-example/memory/` describes (for every core).
 const FLASH_BYTES: u64 = 512 * 1024;
 const RAM_BYTES: u64 = 128 * 1024;
 
@@ -159,8 +159,10 @@ fn firmware_run() -> &'static FirmwareRun {
 /// What the firmware does with the typed bytes, done here with the same core on the host.
 fn host_session_replay(image: &[u8], typed: &[u8]) -> Vec<Keystroke> {
     let model = Model::from_bytes(image).expect("the image is valid");
-    let mut buffers = SessionBuffers::<SUGGESTIONS>::new(model.dims());
-    let mut session = buffers.session::<DEFAULT_HISTORY>(model);
+    let mut buffers = session_memory(model.dims(), SUGGESTIONS);
+    let mut session = buffers
+        .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
+        .expect("buffers sized by the model");
     let options = SearchOptions::new(SUGGESTIONS);
     let mut out = Vec::new();
     let lines = typed
@@ -276,8 +278,10 @@ fn suggestions_match_the_inkling_command() {
     // `inkling next`, the engine on an f32 state (close: the rounding's cost).
     let bytes = std::fs::read(&image).expect("the image");
     let model = Model::from_bytes(&bytes).expect("the image is valid");
-    let mut buffers = SessionBuffers::<SUGGESTIONS>::new(model.dims());
-    let mut session = buffers.session::<DEFAULT_HISTORY>(model);
+    let mut buffers = session_memory(model.dims(), SUGGESTIONS);
+    let mut session = buffers
+        .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
+        .expect("buffers sized by the model");
     let mut checked = 0;
     let (mut worst_kl, mut total_kl) = (0.0f64, 0.0f64);
     for (_, text) in texts(run).into_iter().step_by(7) {

@@ -145,12 +145,13 @@ fn a_learning_device_offers_a_repeated_name_counted_by_hand() {
     // first "Zorvath" (7 keys) and takes the next two at their first look (1 key each),
     // with the 3 spaces typed: 12 keys, KS = 12/24 (the definition of Trnka & McCoy 2008).
     use inkling_core::image::example::tiny_image;
+    use inkling_core::session::DEFAULT_HISTORY;
     use inkling_core::Model;
-    use inkling_host::keystroke_savings::{Learning, ModelPredictor, SessionMemory};
+    use inkling_host::keystroke_savings::{session_memory, Learning, ModelPredictor};
     let image = tiny_image();
     let model = Model::from_bytes(&image).unwrap();
-    let mut buffers = SessionMemory::new(model.dims(), 3);
-    let session = buffers.session::<_, 3>(model).unwrap();
+    let mut buffers = session_memory(model.dims(), 3);
+    let session = buffers.session::<_, 3, DEFAULT_HISTORY>(model).unwrap();
     let options = inkling_core::session::SearchOptions::new(3);
     let mut predictor = ModelPredictor::new(session, options).learning(Learning::new(0.4));
     let text = b"Zorvath Zorvath Zorvath ";

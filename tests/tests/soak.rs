@@ -38,11 +38,11 @@ use inkling_core::image::format::{Role, VOCAB};
 use inkling_core::image::views::{Floats, QuantMatrix};
 use inkling_core::session::{is_boundary, SearchOptions, Session, DEFAULT_HISTORY, MAX_WORD_LEN};
 use inkling_core::{Error, KeyMap, Model, Suggestions};
+use inkling_host::keystroke_savings::session_memory;
 use inkling_quantize::{convert, Checkpoint, ConvertOptions};
 use inkling_tests::checkpoint_spec::{CheckpointSpec, Dtype};
 use inkling_tests::numpy_reference::make_checkpoint;
 use inkling_tests::run_seed::{base_seed, SplitMix64};
-use inkling_tests::session_buffers::SessionBuffers;
 
 /// Beams of the soaked sessions.
 const BEAMS: usize = 3;
@@ -335,11 +335,15 @@ fn soak(image: &[u8], total: u64, restore_every: u64, seed: u64, name: &str) {
     let model = Model::from_bytes(image).expect("the soaked image loads");
     let bounds = bounds(&model);
     let (mut b1, mut b2) = (
-        SessionBuffers::<BEAMS>::new(model.dims()),
-        SessionBuffers::<BEAMS>::new(model.dims()),
+        session_memory(model.dims(), BEAMS),
+        session_memory(model.dims(), BEAMS),
     );
-    let mut first = b1.session::<DEFAULT_HISTORY>(model);
-    let mut second = b2.session::<DEFAULT_HISTORY>(model);
+    let mut first = b1
+        .session::<_, BEAMS, DEFAULT_HISTORY>(model)
+        .expect("buffers sized by the model");
+    let mut second = b2
+        .session::<_, BEAMS, DEFAULT_HISTORY>(model)
+        .expect("buffers sized by the model");
     let mut saved = vec![0.0f32; first.saved_len()];
     let mut typist = Typist::new(seed);
     let mut picker = SplitMix64::new(seed ^ 0x5EED);

@@ -39,6 +39,7 @@ mod beam_slots;
 pub mod keypad;
 pub mod log_softmax;
 pub mod memory;
+pub mod session_buffers;
 pub mod suggestion;
 pub mod text_history;
 pub mod typing_session;
@@ -49,6 +50,7 @@ pub mod word_list;
 
 pub use keypad::{ByteSet, KeyMap};
 pub use log_softmax::LogSoftmax;
+pub use session_buffers::{SessionBuffers, StaticSessionBuffers};
 pub use suggestion::{SearchOptions, Suggestion, Suggestions, DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
 pub use text_history::{TextHistory, DEFAULT_HISTORY};
 pub use typing_session::Session;

@@ -6,12 +6,12 @@ use std::time::Instant;
 
 use inkling_core::engine::recurrence::prefill;
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::SearchOptions;
+use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
 use inkling_core::Scratch;
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::session_memory::SessionMemory;
+use crate::keystroke_savings::session_memory::session_memory;
 use crate::model_file::ModelFile;
 use crate::text_scoring::HostEngine;
 
@@ -131,9 +131,9 @@ fn keystroke_milliseconds(weights: &dyn Weights, count: usize) -> Result<Spread,
     let options = SearchOptions::new(count);
     let mut times = Vec::new();
     for _ in 0..REPEATS {
-        let mut memory = SessionMemory::new(&d, MAX_COUNT);
+        let mut memory = session_memory(&d, MAX_COUNT);
         let mut session = memory
-            .session::<_, MAX_COUNT>(weights)
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(weights)
             .map_err(|e| HostError::Usage(format!("typing session: {e}")))?;
         let start = Instant::now();
         for &b in KEYSTROKE_TEXT {

@@ -1,13 +1,14 @@
 //! `inkling budget`: the model shapes that fit a part's flash and RAM, with the predicted
-//! instructions per step and milliseconds per keystroke on a Cortex-M4F.
+//! instructions per step and milliseconds per keystroke on a core (`--core`: Cortex-M4F by
+//! default, Cortex-M0+ or RV32IMC).
 //!
 //! Flash is the exact image size plus the firmware's code (largest measured); RAM is the
 //! typing session's buffers ([`Dims::session_bytes`]) plus the largest stack high-water mark
 //! measured, plus a margin. Instructions come from [`CostModel`], fitted to the firmware's
-//! counts under QEMU; time assumes one instruction per cycle, an optimistic bound (flash wait
-//! states and multi-cycle instructions make a real part slower).
+//! counts under QEMU on that core; time assumes one instruction per cycle, an optimistic
+//! bound (flash wait states and multi-cycle instructions make a real part slower).
 
-use crate::cost_model::{calibration, image_bytes, Calibration, CostModel};
+use crate::cost_model::{calibration, image_bytes, Calibration, Core, CostModel};
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
 use inkling_core::Dims;
 
@@ -26,6 +27,9 @@ pub struct BudgetArgs {
     /// RAM of the part (bytes, or with K or M).
     #[arg(long, value_parser = parse_size)]
     pub ram: usize,
+    /// The core: its own cost model, fitted to its instruction counts under QEMU.
+    #[arg(long, value_enum, default_value = "cortex-m4f")]
+    pub core: Core,
     /// Core clock in MHz.
     #[arg(long, default_value_t = 64.0)]
     pub clock: f64,
@@ -174,10 +178,13 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
     super::checks::positive("--clock", args.clock)?;
     super::checks::count("--beams", args.beams)?;
     super::checks::at_least_one("--top", args.top)?;
-    let cal = Calibration::parse(calibration::BUILT_IN)
-        .map_err(|e| HostError::Usage(format!("built-in firmware measurements: {e}")))?;
+    let core = args.core.name();
+    let cal = Calibration::parse(args.core.measurements())
+        .map_err(|e| HostError::Usage(format!("built-in {core} measurements: {e}")))?;
     let model = CostModel::fit(&cal).ok_or_else(|| {
-        HostError::Usage("built-in firmware measurements: too few shapes to fit".into())
+        HostError::Usage(format!(
+            "built-in {core} measurements: too few shapes to fit"
+        ))
     })?;
     let ms = |instructions: f64| milliseconds(instructions, args.clock);
     let (memory_ram, memory_flash) = if args.memory_words > 0 {
@@ -221,7 +228,7 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
             })
             .collect();
         let mut v = serde_json::json!({
-            "flash_bytes": args.flash, "ram_bytes": args.ram, "clock_mhz": args.clock,
+            "core": core, "flash_bytes": args.flash, "ram_bytes": args.ram, "clock_mhz": args.clock,
             "beams": args.beams, "max_ms": args.max_ms, "fitting": found.len(), "shapes": list,
             "assumptions": {
                 "code_bytes": model.code_bytes,
@@ -254,7 +261,7 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         String::new()
     };
     println!(
-        "{} of {} shapes fit {} B flash and {} B RAM{within} ({} suggestions, {} MHz; code {} B, stack {} B assumed{memory}; \
+        "{} of {} shapes fit {} B flash and {} B RAM{within} on a {core} ({} suggestions, {} MHz; code {} B, stack {} B assumed{memory}; \
          time at one instruction per cycle, an optimistic bound):",
         found.len(),
         shapes().count(),

@@ -2,14 +2,14 @@
 
 use std::path::{Path, PathBuf};
 
-use inkling_core::session::{KeyMap, SearchOptions};
+use inkling_core::session::{KeyMap, SearchOptions, DEFAULT_HISTORY};
 
 use super::suggest::MAX_COUNT;
 use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
 use crate::keystroke_savings::simulation::whole_words;
 use crate::keystroke_savings::{
-    compare, simulate_with, FrequencyBaseline, ModelPredictor, Offer, SessionMemory,
+    compare, session_memory, simulate_with, FrequencyBaseline, ModelPredictor, Offer,
 };
 use crate::model_file::{image_model, ModelFile};
 use crate::text_scoring::{bits_per_byte, log_softmax, HostEngine};
@@ -185,8 +185,8 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
         let mut looks = Vec::new();
         let keys = image
             .with_weights(|w| {
-                let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
-                let session = memory.session::<_, MAX_COUNT>(w)?;
+                let mut memory = session_memory(w.dims(), MAX_COUNT);
+                let session = memory.session::<_, MAX_COUNT, DEFAULT_HISTORY>(w)?;
                 let mut predictor = ModelPredictor::new(session, SearchOptions::new(SHOWN));
                 simulate_with(sentence.as_bytes(), SHOWN, &mut predictor, |offer| {
                     let at_word_start = offer
@@ -233,8 +233,8 @@ fn typing(image: &ModelFile, args: &DemoArgs) -> Result<serde_json::Value, HostE
     for (context, digits) in KEYED {
         let found = image
             .with_weights(|w| {
-                let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
-                let mut session = memory.session::<_, MAX_COUNT>(w)?;
+                let mut memory = session_memory(w.dims(), MAX_COUNT);
+                let mut session = memory.session::<_, MAX_COUNT, DEFAULT_HISTORY>(w)?;
                 session.push_bytes(context.as_bytes())?;
                 session.keys(digits.as_bytes(), &KeyMap::E161, &SearchOptions::new(SHOWN))
             })

@@ -8,9 +8,10 @@ use inkling_core::session::{
     is_boundary, word_order, SearchOptions, Session, Suggestions, WordFilter, WordList,
     DEFAULT_MARGIN, DEFAULT_MAX_STEPS,
 };
-use inkling_core::{Model, Scratch};
+use inkling_core::Model;
 
 use crate::error::HostError;
+use crate::keystroke_savings::session_memory;
 use crate::model_file::load_image;
 
 /// The most suggestions one run may ask for (the session's beam capacity).
@@ -144,13 +145,8 @@ pub fn with_session(
         source,
     };
     let model = Model::from_bytes(&image).map_err(model_error)?;
-    let dims = *model.dims();
-    let mut floats = vec![0.0f32; dims.session_floats(MAX_COUNT)];
-    let mut work = vec![0.0f32; dims.work_len()];
-    let mut act = vec![0i16; dims.act_len()];
-    let scratch = Scratch::new(&dims, &mut work, &mut act).map_err(model_error)?;
-    let mut session =
-        Session::<_, MAX_COUNT>::new(model, &mut floats, scratch).map_err(model_error)?;
+    let mut memory = session_memory(model.dims(), MAX_COUNT);
+    let mut session: Session<_, MAX_COUNT> = memory.session(model).map_err(model_error)?;
     for (at, &b) in text.iter().enumerate() {
         session
             .push(b)

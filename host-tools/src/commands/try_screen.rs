@@ -30,13 +30,13 @@ use crossterm::terminal::{self, ClearType};
 use crossterm::{cursor, execute, queue};
 use inkling_core::engine::weights::Weights;
 use inkling_core::session::{
-    is_boundary, SearchOptions, Session, Suggestions, WordList, DEFAULT_MAX_STEPS,
+    is_boundary, SearchOptions, Session, Suggestions, WordList, DEFAULT_HISTORY, DEFAULT_MAX_STEPS,
 };
 use inkling_core::user_memory::{CacheBlend, UserMemory, DEFAULT_CACHE_WEIGHT};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::{SessionMemory, MEMORY_WORDS};
+use crate::keystroke_savings::{session_memory, MEMORY_WORDS};
 use crate::memory_file::MemoryFile;
 use crate::model_file::ModelFile;
 
@@ -364,8 +364,10 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
         None => (None, Box::new(UserMemory::new())),
     };
     file.with_weights(|w| {
-        let mut memory = SessionMemory::new(w.dims(), MAX_COUNT);
-        let session = memory.session::<_, MAX_COUNT>(w).map_err(model_error)?;
+        let mut memory = session_memory(w.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(w)
+            .map_err(model_error)?;
         let mut screen = Screen {
             session,
             options: SearchOptions {
@@ -412,8 +414,10 @@ mod tests {
     fn a_short_terminal_keeps_the_line_being_typed() {
         let image = inkling_core::image::example::tiny_image();
         let model = inkling_core::Model::from_bytes(&image).unwrap();
-        let mut memory = SessionMemory::new(model.dims(), MAX_COUNT);
-        let session = memory.session::<_, MAX_COUNT>(model).unwrap();
+        let mut memory = session_memory(model.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
+            .unwrap();
         let mut screen = Screen {
             session,
             options: SearchOptions::new(3),
@@ -451,8 +455,10 @@ mod tests {
     fn the_screen_learns_a_name_and_forgets_it_on_request() {
         let image = inkling_core::image::example::tiny_image();
         let model = inkling_core::Model::from_bytes(&image).unwrap();
-        let mut memory = SessionMemory::new(model.dims(), MAX_COUNT);
-        let session = memory.session::<_, MAX_COUNT>(model).unwrap();
+        let mut memory = session_memory(model.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
+            .unwrap();
         let mut screen = Screen {
             session,
             options: SearchOptions::new(3),

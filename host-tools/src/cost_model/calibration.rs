@@ -1,10 +1,47 @@
-//! The firmware's measured figures per model shape, as `tests/firmware/calibrate.sh` writes
-//! them: one shape a line of `NAME=VALUE` fields, `#` comments.
+//! The firmware's measured figures per model shape and core, as
+//! `tests/firmware/calibrate.sh --core CORE` writes them: one shape a line of `NAME=VALUE`
+//! fields, `#` comments.
 
 use inkling_core::Dims;
 
-/// The measurements built into the tool.
-pub const BUILT_IN: &str = include_str!("../../../tests/firmware/calibration.txt");
+/// A core the firmware was measured on (named as `tests/firmware/run.sh --core` names it).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum Core {
+    /// Cortex-M4F: FPU, DSP multiply-accumulate (`thumbv7em-none-eabihf`).
+    #[value(name = "cortex-m4f")]
+    CortexM4f,
+    /// Cortex-M0+: no FPU (soft float), no DSP instructions (`thumbv6m-none-eabi`).
+    #[value(name = "cortex-m0plus")]
+    CortexM0plus,
+    /// RISC-V RV32IMC: no FPU (soft float) (`riscv32imc-unknown-none-elf`).
+    #[value(name = "riscv32imc")]
+    Riscv32imc,
+}
+
+impl Core {
+    /// Every core with built-in measurements.
+    pub const ALL: [Core; 3] = [Core::CortexM4f, Core::CortexM0plus, Core::Riscv32imc];
+
+    /// Its name, as `--core` takes it.
+    pub fn name(self) -> &'static str {
+        match self {
+            Core::CortexM4f => "cortex-m4f",
+            Core::CortexM0plus => "cortex-m0plus",
+            Core::Riscv32imc => "riscv32imc",
+        }
+    }
+
+    /// The measurements of this core built into the tool.
+    pub fn measurements(self) -> &'static str {
+        match self {
+            Core::CortexM4f => include_str!("../../../tests/firmware/calibration.txt"),
+            Core::CortexM0plus => {
+                include_str!("../../../tests/firmware/calibration-cortex-m0plus.txt")
+            }
+            Core::Riscv32imc => include_str!("../../../tests/firmware/calibration-riscv32imc.txt"),
+        }
+    }
+}
 
 /// Suggestions the firmware's typing run offers (`SUGGESTIONS` in its build script).
 pub const FIRMWARE_BEAMS: usize = 3;

@@ -1,12 +1,13 @@
-//! What a model shape costs on a Cortex-M4F: flash (the exact image size), RAM (the session's
-//! buffers and a stack allowance) and instructions per engine step and per keystroke, from a
-//! linear model fitted to instruction counts measured in QEMU (`tests/firmware/calibrate.sh`
-//! writes them to `tests/firmware/calibration.txt`, built in here).
+//! What a model shape costs on a core (Cortex-M4F, Cortex-M0+ or RV32IMC): flash (the exact
+//! image size), RAM (the session's buffers and a stack allowance) and instructions per engine
+//! step and per keystroke, from a linear model fitted to that core's instruction counts
+//! measured in QEMU (`tests/firmware/calibrate.sh --core CORE` writes them to
+//! `tests/firmware/calibration*.txt`, built in here).
 
 pub mod calibration;
 pub mod image_size;
 
-pub use calibration::{Calibration, Sample};
+pub use calibration::{Calibration, Core, Sample};
 pub use image_size::image_bytes;
 
 use inkling_core::Dims;

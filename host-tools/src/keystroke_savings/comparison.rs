@@ -7,9 +7,9 @@ use crate::commands::suggest::MAX_COUNT;
 
 use super::frequency_baseline::FrequencyBaseline;
 use super::model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
-use super::session_memory::SessionMemory;
+use super::session_memory::session_memory;
 use super::simulation::{simulate, simulate_with, KeyCount};
-use inkling_core::session::SearchOptions;
+use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
 
 /// The framings reported: (selection key counted, automatic space). The first is the headline.
 pub const FRAMINGS: [(bool, bool); 3] = [(true, false), (true, true), (false, false)];
@@ -55,8 +55,8 @@ pub fn compare(
     learn: Option<f32>,
     mut progress: impl FnMut(usize),
 ) -> Result<Comparison, Error> {
-    let mut memory = SessionMemory::new(weights.dims(), MAX_COUNT);
-    let session = memory.session::<_, MAX_COUNT>(weights)?;
+    let mut memory = session_memory(weights.dims(), MAX_COUNT);
+    let session = memory.session::<_, MAX_COUNT, DEFAULT_HISTORY>(weights)?;
     let mut predictor = ModelPredictor::new(session, search);
     let model = simulate_with(text, count, &mut predictor, |offer| {
         progress(offer.typed.len())
@@ -64,7 +64,7 @@ pub fn compare(
     let search_steps = predictor.search_steps;
     let with_learning = match learn {
         Some(weight) => {
-            let session = memory.session::<_, MAX_COUNT>(weights)?;
+            let session = memory.session::<_, MAX_COUNT, DEFAULT_HISTORY>(weights)?;
             let mut predictor =
                 ModelPredictor::new(session, search).learning(Learning::new(weight));
             let keys = simulate_with(text, count, &mut predictor, |offer| {

@@ -19,11 +19,11 @@
 //! disambiguation list), with the same counting.
 
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{is_boundary, KeyMap, SearchOptions, MAX_WORD_LEN};
+use inkling_core::session::{is_boundary, KeyMap, SearchOptions, DEFAULT_HISTORY, MAX_WORD_LEN};
 use inkling_core::Error;
 
 use super::frequency_baseline::FrequencyBaseline;
-use super::session_memory::SessionMemory;
+use super::session_memory::session_memory;
 
 /// Words offered for one sequence of digits (the session's largest beam count).
 pub const OFFERED: usize = 16;
@@ -141,8 +141,8 @@ pub fn keypad_entry(
     search: SearchOptions<'_>,
     mut progress: impl FnMut(usize),
 ) -> Result<(KeypadCount, KeypadCount), Error> {
-    let mut memory = SessionMemory::new(weights.dims(), OFFERED);
-    let mut session = memory.session::<_, OFFERED>(weights)?;
+    let mut memory = session_memory(weights.dims(), OFFERED);
+    let mut session = memory.session::<_, OFFERED, DEFAULT_HISTORY>(weights)?;
     let dictionary = baseline.by_digits(digits_of);
     let mut model = KeypadCount {
         chars: text.len(),

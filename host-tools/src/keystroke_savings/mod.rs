@@ -39,5 +39,5 @@ pub use comparison::{compare, Comparison, LearningRun};
 pub use frequency_baseline::FrequencyBaseline;
 pub use keypad_entry::{keypad_entry, KeypadCount};
 pub use model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
-pub use session_memory::SessionMemory;
+pub use session_memory::{session_memory, SessionMemory};
 pub use simulation::{simulate, simulate_with, KeyCount, Offer, Predictor};

@@ -1,12 +1,22 @@
-//! `embedded-io` reader and writers over ARM semihosting, so the program sees the host's
-//! standard input and output. On a board without a debugger, a UART driver implementing the
+//! `embedded-io` reader and writers over semihosting (Arm's, and the RISC-V one that takes
+//! over its operations), so the program sees the host's standard input and output. On a board without a debugger, a UART driver implementing the
 //! same two traits takes their place and nothing else changes.
 //!
 //! Input comes from the host console `":tt"` opened for reading, through `SYS_READ`
 //! (`SYS_READC` hangs or returns spurious zero bytes under QEMU). `SYS_READ` returns the
 //! number of bytes it did NOT read; reading nothing means the input has ended.
 
-use cortex_m_semihosting::{nr, syscall};
+use super::semihosting;
+
+/// Semihosting operations and open modes (Arm semihosting specification, "Semihosting
+/// operations"; from memory).
+const SYS_OPEN: usize = 0x01;
+const SYS_WRITE: usize = 0x05;
+const SYS_READ: usize = 0x06;
+/// `fopen` modes "r", "w" and "a" (binary variants are one more).
+const MODE_READ: usize = 0;
+const MODE_WRITE: usize = 4;
+const MODE_APPEND: usize = 8;
 
 /// A semihosting call failed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]
@@ -42,7 +52,8 @@ impl embedded_io::Error for HostIoError {
 fn open_console(mode: usize) -> Result<usize, HostIoError> {
     let name = b":tt\0";
     // SAFETY: the name is NUL-terminated and outlives the call; its length excludes the NUL.
-    let handle = unsafe { syscall!(OPEN, name.as_ptr(), mode, name.len() - 1) };
+    let block = [name.as_ptr() as usize, mode, name.len() - 1];
+    let handle = unsafe { semihosting(SYS_OPEN, &block) };
     if handle as isize == -1 {
         Err(HostIoError::Open { mode })
     } else {
@@ -59,7 +70,7 @@ pub struct HostInput {
 impl HostInput {
     /// Opens the host's standard input.
     pub fn open() -> Result<Self, HostIoError> {
-        open_console(nr::open::R).map(|handle| HostInput { handle })
+        open_console(MODE_READ).map(|handle| HostInput { handle })
     }
 }
 
@@ -70,7 +81,8 @@ impl embedded_io::ErrorType for HostInput {
 impl embedded_io::Read for HostInput {
     fn read(&mut self, buf: &mut [u8]) -> Result<usize, HostIoError> {
         // SAFETY: the host writes at most `buf.len()` bytes into `buf`.
-        let not_read = unsafe { syscall!(READ, self.handle, buf.as_mut_ptr(), buf.len()) };
+        let block = [self.handle, buf.as_mut_ptr() as usize, buf.len()];
+        let not_read = unsafe { semihosting(SYS_READ, &block) };
         buf.len().checked_sub(not_read).ok_or(HostIoError::Read {
             handle: self.handle,
         })
@@ -86,12 +98,12 @@ pub struct HostOutput {
 impl HostOutput {
     /// Opens the host's standard output.
     pub fn stdout() -> Result<Self, HostIoError> {
-        open_console(nr::open::W_TRUNC).map(|handle| HostOutput { handle })
+        open_console(MODE_WRITE).map(|handle| HostOutput { handle })
     }
 
     /// Opens the host's standard error.
     pub fn stderr() -> Result<Self, HostIoError> {
-        open_console(nr::open::W_APPEND).map(|handle| HostOutput { handle })
+        open_console(MODE_APPEND).map(|handle| HostOutput { handle })
     }
 }
 
@@ -105,7 +117,8 @@ impl embedded_io::Write for HostOutput {
             return Ok(0);
         }
         // SAFETY: the host only reads `buf.len()` bytes from `buf`.
-        let not_written = unsafe { syscall!(WRITE, self.handle, buf.as_ptr(), buf.len()) };
+        let block = [self.handle, buf.as_ptr() as usize, buf.len()];
+        let not_written = unsafe { semihosting(SYS_WRITE, &block) };
         match buf.len().checked_sub(not_written) {
             Some(0) | None => Err(HostIoError::Write {
                 handle: self.handle,

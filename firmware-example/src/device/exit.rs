@@ -1,11 +1,11 @@
-//! Leaving QEMU with a status, so that a failed run never hangs: the panic and HardFault
-//! handlers exit too.
+//! Leaving QEMU with a status, so that a failed run never hangs: the panic handler and the
+//! fault handlers (`HardFault` on Arm, the exception handler on RISC-V) exit too.
 
-use cortex_m_rt::{exception, ExceptionFrame};
 use embedded_io::Write;
-use inkling_firmware_example::number_text::{decimal_u64, hex_u32, U64_DIGITS};
 
-use crate::semihosting_io::HostOutput;
+use super::semihosting_io::HostOutput;
+use super::{halt, semihosting};
+use crate::number_text::{decimal_u64, hex_u32, U64_DIGITS};
 
 /// The exit statuses of the program.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -20,11 +20,12 @@ pub enum ExitCode {
     Internal = 4,
     /// A panic (the program has none on purpose; this is the safety net).
     Panic = 101,
-    /// A HardFault.
-    HardFault = 102,
+    /// A fault: HardFault on Arm, an exception trap on RISC-V.
+    Fault = 102,
 }
 
-/// `SYS_EXIT_EXTENDED`: exit with any status (plain `SYS_EXIT` passes only 0 or 1).
+/// `SYS_EXIT_EXTENDED`: exit with any status (plain `SYS_EXIT` passes only 0 or 1); Arm's
+/// semihosting specification, which the RISC-V semihosting specification takes over.
 const SYS_EXIT_EXTENDED: usize = 0x20;
 /// `ADP_Stopped_ApplicationExit`: the reason code of a normal exit.
 const APPLICATION_EXIT: usize = 0x2_0026;
@@ -34,12 +35,21 @@ pub fn exit(code: ExitCode) -> ! {
     let block = [APPLICATION_EXIT, code as usize];
     // SAFETY: the parameter block lives across the call.
     unsafe {
-        cortex_m_semihosting::syscall(SYS_EXIT_EXTENDED, &block);
+        semihosting(SYS_EXIT_EXTENDED, &block);
     }
     // Without a debugger attached the call returns: stop here.
-    loop {
-        cortex_m::asm::wfi();
+    halt()
+}
+
+/// Reports a fault (`what` at `pc`) on standard error and exits with `code`.
+pub fn fault(what: &[u8], pc: u32, code: ExitCode) -> ! {
+    if let Ok(mut err) = HostOutput::stderr() {
+        let _ = err.write_all(what);
+        let _ = err.write_all(b" at pc ");
+        let _ = err.write_all(&hex_u32(pc));
+        let _ = err.write_all(b"\n");
     }
+    exit(code)
 }
 
 #[panic_handler]
@@ -57,14 +67,4 @@ fn panic(info: &core::panic::PanicInfo) -> ! {
         let _ = err.write_all(b"\n");
     }
     exit(ExitCode::Panic)
-}
-
-#[exception]
-unsafe fn HardFault(frame: &ExceptionFrame) -> ! {
-    if let Ok(mut err) = HostOutput::stderr() {
-        let _ = err.write_all(b"hard fault at pc ");
-        let _ = err.write_all(&hex_u32(frame.pc()));
-        let _ = err.write_all(b"\n");
-    }
-    exit(ExitCode::HardFault)
 }
