@@ -15,36 +15,27 @@
 #![no_main]
 
 #[allow(dead_code)]
-#[path = "../exit.rs"]
-mod exit;
-#[path = "../instruction_clock.rs"]
-mod instruction_clock;
-#[allow(dead_code)]
-#[path = "../semihosting_io.rs"]
-mod semihosting_io;
-#[allow(dead_code)]
 #[path = "../status_log.rs"]
 mod status_log;
 
-use cortex_m_rt::entry;
-use inkling_core::session::{is_boundary, SearchOptions, Session, WordList};
+use inkling_core::session::{
+    is_boundary, SearchOptions, StaticSessionBuffers, WordList, DEFAULT_HISTORY,
+};
 use inkling_core::user_memory::flash_layout::flash_bytes_needed;
 use inkling_core::user_memory::{
     CacheBlend, FlashStore, RamFlash, UserMemory, DEFAULT_CACHE_WEIGHT,
 };
-use inkling_core::{Model, Scratch};
+use inkling_core::Model;
+use inkling_firmware_example::device::exit::{exit, ExitCode};
+use inkling_firmware_example::device::{calibrate, entry, InstructionClock, CALIBRATION_LOOPS};
 
-use exit::{exit, ExitCode};
-use instruction_clock::{calibrate, InstructionClock, CALIBRATION_LOOPS};
 use status_log::StatusLog;
 
 #[cfg(feature = "defmt")]
 use defmt_semihosting as _;
 
-// The buffer sizes from the image's dimensions.
-include!(concat!(env!("OUT_DIR"), "/buffer_sizes.rs"));
-// This program runs no chunked prefill.
-const _: usize = CHUNK_WORK_LEN;
+// SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: a session's, from the image's dimensions.
+include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
 
 /// Bytes aligned to 16, as the image's payloads expect for direct word loads.
 #[repr(C, align(16))]
@@ -66,9 +57,9 @@ const PAGE: usize = 1024;
 /// Bytes of the flash range: what the memory needs.
 const FLASH_BYTES: usize = flash_bytes_needed(WORDS, PAGE, 4);
 
-static mut SESSION_STATES: [f32; SESSION_FLOATS] = [0.0; SESSION_FLOATS];
-static mut WORK: [f32; WORK_LEN] = [0.0; WORK_LEN];
-static mut ACT: [i16; ACT_LEN] = [0; ACT_LEN];
+/// The session's buffers, handed out once.
+static BUFFERS: StaticSessionBuffers<SESSION_FLOATS, WORK_LEN, ACT_LEN> =
+    StaticSessionBuffers::new();
 /// The simulated flash, erased.
 static mut FLASH: [u8; FLASH_BYTES] = [0xFF; FLASH_BYTES];
 /// The memory, and the one read back after the reboot.
@@ -94,10 +85,9 @@ fn text() -> &'static [u8] {
 fn main() -> ! {
     let mut log = StatusLog::open();
     log.note("inkling user memory: learning, flash, reboot");
-    let Some(core) = cortex_m::Peripherals::take() else {
+    let Some(clock) = InstructionClock::start() else {
         exit(ExitCode::Internal)
     };
-    let clock = InstructionClock::start(core.SYST);
     let calibration_ticks = calibrate(&clock);
     let per_tick =
         (2 * u64::from(CALIBRATION_LOOPS) + calibration_ticks / 2) / calibration_ticks.max(1);
@@ -107,23 +97,15 @@ fn main() -> ! {
         Ok(model) => model,
         Err(e) => fail(&mut log, "built-in image", &e, ExitCode::BadImage),
     };
-    let dims = *model.dims();
     // SAFETY: the only references to these statics, taken once; no interrupt touches them.
-    let (states, work, act, flash, memory, rebooted) = unsafe {
+    let (flash, memory, rebooted) = unsafe {
         (
-            &mut *core::ptr::addr_of_mut!(SESSION_STATES),
-            &mut *core::ptr::addr_of_mut!(WORK),
-            &mut *core::ptr::addr_of_mut!(ACT),
             &mut *core::ptr::addr_of_mut!(FLASH),
             &mut *core::ptr::addr_of_mut!(MEMORY),
             &mut *core::ptr::addr_of_mut!(REBOOTED),
         )
     };
-    let scratch = match Scratch::new(&dims, work, act) {
-        Ok(scratch) => scratch,
-        Err(e) => fail(&mut log, "engine scratch", &e, ExitCode::Internal),
-    };
-    let mut session = match Session::<_, SUGGESTIONS>::new(model, states, scratch) {
+    let mut session = match BUFFERS.session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model) {
         Ok(session) => session,
         Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
     };
