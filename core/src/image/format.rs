@@ -324,9 +324,9 @@ impl Role {
     /// assert_eq!(Role::ALL.len(), 13);
     /// assert_eq!(Role::ALL.iter().filter(|r| r.is_block_role()).count(), 10);
     /// ```
-    // Evaluated at compile time: an index out of range fails the build.
     #[allow(clippy::indexing_slicing)]
     pub const ALL: [Role; 3 + TENSORS_PER_BLOCK] = {
+        // Evaluated at compile time: an index out of range fails the build.
         let mut all = [Role::Norm; 3 + TENSORS_PER_BLOCK];
         all[0] = Role::ByteEmbed;
         all[1] = Role::FinalNorm;
