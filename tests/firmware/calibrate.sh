@@ -55,16 +55,12 @@ shapes=(
   "96 192 8 2"
   "128 128 8 2"
 )
-for shape in "${shapes[@]}"; do
-  read -r d i n blocks <<<"$shape"
-  name="d${d}_i${i}_n${n}_l${blocks}"
-  echo "== $name" >&2
-  python3 "$root/tests/reference/make_checkpoint.py" --d "$d" --i "$i" --n "$n" \
-    --blocks "$blocks" --seed 1 -o "$work/$name.safetensors" >/dev/null
-  "$inkling" convert "$work/$name.safetensors" --out "$work/$name.inkl" >/dev/null
-  INKLING_IMAGE="$work/$name.inkl" "$here/run.sh" --core "$core" --skip-unit --input "$work/typing.txt" \
+# Runs the typing on image $1 (results in $work/$2) and writes one calibration line: the
+# fields $3, then the figures the cost model uses.
+measure() {
+  local image=$1 name=$2 fields=$3 key value
+  INKLING_IMAGE="$image" "$here/run.sh" --core "$core" --skip-unit --input "$work/typing.txt" \
     --out "$work/$name" >/dev/null
-  fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks"
   while read -r key value; do
     case "$key" in
       image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
@@ -74,23 +70,21 @@ for shape in "${shapes[@]}"; do
     esac
   done <"$work/$name/figures.txt"
   echo "$fields" >>"$work/calibration.txt"
+}
+for shape in "${shapes[@]}"; do
+  read -r d i n blocks <<<"$shape"
+  name="d${d}_i${i}_n${n}_l${blocks}"
+  echo "== $name" >&2
+  python3 "$root/tests/reference/make_checkpoint.py" --d "$d" --i "$i" --n "$n" \
+    --blocks "$blocks" --seed 1 -o "$work/$name.safetensors" >/dev/null
+  "$inkling" convert "$work/$name.safetensors" --out "$work/$name.inkl" >/dev/null
+  measure "$work/$name.inkl" "$name" "d_model=$d d_inner=$i d_state=$n blocks=$blocks"
 done
 # The trained demo model: its dimensions from `inkling inspect`.
 demo="$root/models/demo.inkl"
 read -r d i n blocks < <("$inkling" inspect "$demo" --json | python3 -c \
   'import json, sys; d = json.load(sys.stdin)["dims"]; print(d["d_model"], d["d_inner"], d["d_state"], d["blocks"])')
 echo "== demo (trained)" >&2
-INKLING_IMAGE="$demo" "$here/run.sh" --core "$core" --skip-unit --input "$work/typing.txt" \
-  --out "$work/demo" >/dev/null
-fields="d_model=$d d_inner=$i d_state=$n blocks=$blocks trained=1"
-while read -r key value; do
-  case "$key" in
-    image_bytes|step_macs|step_instructions|step_matvec_instructions|step_quantise_instructions|\
-    step_scan_exp_instructions|keystroke_instructions_*|keystroke_total_instructions_*|keystroke_search_steps_mean|keypress_instructions_*|ram_total_bytes|\
-    prefill_instructions_per_byte|stack_used_bytes|flash_text_bytes|kernel_*_instructions_per_mac_milli)
-      fields="$fields $key=$value" ;;
-  esac
-done <"$work/demo/figures.txt"
-echo "$fields" >>"$work/calibration.txt"
+measure "$demo" demo "d_model=$d d_inner=$i d_state=$n blocks=$blocks trained=1"
 mv "$work/calibration.txt" "$out"
 echo "wrote $out" >&2
