@@ -1,30 +1,23 @@
 //! What a suggestion's text may be: whole UTF-8 characters, more than the word typed, any case
 //! a key or a word list allows.
 
-use inkling_core::image::example::tiny_image;
-use inkling_core::session::{KeyMap, SearchOptions, Session, Suggestions, WordFilter, WordList};
-use inkling_core::{Model, Scratch};
+use inkling_core::session::{
+    KeyMap, SearchOptions, Suggestions, WordFilter, WordList, MAX_WORD_LEN,
+};
 use proptest::prelude::*;
 
-const K: usize = 4;
+mod common;
+use common::{with_session, K};
 
-/// Types `text` into a fresh session over the tiny example model and hands it to `f`.
-fn with_session<R>(text: &[u8], f: impl FnOnce(&mut Session<'_, Model<'_>, K>) -> R) -> R {
-    let image = tiny_image();
-    let model = Model::from_bytes(&image).unwrap();
-    let dims = *model.dims();
-    let mut floats = vec![0.0f32; dims.session_floats(K)];
-    let (mut work, mut act) = (vec![0.0f32; dims.work_len()], vec![0i16; dims.act_len()]);
-    let scratch = Scratch::new(&dims, &mut work, &mut act).unwrap();
-    let mut session = Session::<_, K>::new(model, &mut floats, scratch).unwrap();
-    session.push_bytes(text).unwrap();
-    f(&mut session)
-}
-
-/// Text of ASCII letters, spaces and letters of two, three and four bytes in UTF-8.
+/// Text of ASCII letters, spaces and letters of two, three and four bytes in UTF-8, each word
+/// within [`MAX_WORD_LEN`] bytes (a longer one is refused as it is typed, by design).
 fn non_ascii_text() -> impl Strategy<Value = String> {
     let chars = proptest::sample::select(vec!['a', 't', ' ', 'é', 'Ñ', 'ß', '東', '😀', 'ø']);
-    proptest::collection::vec(chars, 0..12).prop_map(|cs| cs.into_iter().collect())
+    proptest::collection::vec(chars, 0..12)
+        .prop_map(|cs| cs.into_iter().collect::<String>())
+        .prop_filter("a word longer than MAX_WORD_LEN bytes", |t| {
+            t.split(' ').all(|w| w.len() <= MAX_WORD_LEN)
+        })
 }
 
 /// Checks every suggestion after `typed` (the word being typed is the tail after the last

@@ -1,25 +1,11 @@
 //! The user memory in a typing session: learned words offered, blended as a cache model,
 //! and nothing changed when no memory is given.
 
-use inkling_core::image::example::tiny_image;
-use inkling_core::session::{SearchOptions, Session, Suggestions, WordFilter, WordList};
+use inkling_core::session::{SearchOptions, Suggestions, WordFilter, WordList};
 use inkling_core::user_memory::{CacheBlend, UserMemory};
-use inkling_core::{Model, Scratch};
 
-const K: usize = 4;
-
-/// Types `text` into a fresh session over the tiny example model and hands it to `f`.
-fn with_session<R>(text: &[u8], f: impl FnOnce(&mut Session<'_, Model<'_>, K>) -> R) -> R {
-    let image = tiny_image();
-    let model = Model::from_bytes(&image).unwrap();
-    let dims = *model.dims();
-    let mut floats = vec![0.0f32; dims.session_floats(K)];
-    let (mut work, mut act) = (vec![0.0f32; dims.work_len()], vec![0i16; dims.act_len()]);
-    let scratch = Scratch::new(&dims, &mut work, &mut act).unwrap();
-    let mut session = Session::<_, K>::new(model, &mut floats, scratch).unwrap();
-    session.push_bytes(text).unwrap();
-    f(&mut session)
-}
+mod common;
+use common::{with_session, K};
 
 fn bits(found: &Suggestions<K>) -> Vec<(Vec<u8>, u32, bool)> {
     found
