@@ -131,7 +131,27 @@ struct Screen<'b, W: Weights> {
     file: Option<MemoryFile>,
 }
 
-impl<W: Weights> Screen<'_, W> {
+impl<'b, W: Weights> Screen<'b, W> {
+    /// A screen with nothing typed yet.
+    fn new(
+        session: Session<'b, W, MAX_COUNT>,
+        options: SearchOptions<'static>,
+        learned: Box<UserMemory<MEMORY_WORDS>>,
+        file: Option<MemoryFile>,
+    ) -> Self {
+        Screen {
+            session,
+            options,
+            text: Vec::new(),
+            found: Suggestions::default(),
+            mark: 0,
+            keys: 0,
+            note: String::new(),
+            learned,
+            file,
+        }
+    }
+
     fn refresh(&mut self) -> Result<(), inkling_core::Error> {
         let options = SearchOptions {
             memory: Some(CacheBlend::new(&self.learned, DEFAULT_CACHE_WEIGHT)),
@@ -368,20 +388,11 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
         let session = memory
             .session::<_, MAX_COUNT, DEFAULT_HISTORY>(w)
             .map_err(model_error)?;
-        let mut screen = Screen {
-            session,
-            options: SearchOptions {
-                max_steps: args.max_steps,
-                ..SearchOptions::new(args.count)
-            },
-            text: Vec::new(),
-            found: Suggestions::default(),
-            mark: 0,
-            keys: 0,
-            note: String::new(),
-            learned,
-            file: memory_file,
+        let options = SearchOptions {
+            max_steps: args.max_steps,
+            ..SearchOptions::new(args.count)
         };
+        let mut screen = Screen::new(session, options, learned, memory_file);
         screen.refresh().map_err(model_error)?;
         let mut run = || -> io::Result<Result<(), inkling_core::Error>> {
             let _raw = RawTerminal::enter()?;
@@ -418,17 +429,13 @@ mod tests {
         let session = memory
             .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
             .unwrap();
-        let mut screen = Screen {
+        let mut screen = Screen::new(
             session,
-            options: SearchOptions::new(3),
-            text: b"first line\nsecond line\nthird li".to_vec(),
-            found: Suggestions::default(),
-            mark: 0,
-            keys: 0,
-            note: String::new(),
-            learned: Box::new(UserMemory::new()),
-            file: None,
-        };
+            SearchOptions::new(3),
+            Box::new(UserMemory::new()),
+            None,
+        );
+        screen.text = b"first line\nsecond line\nthird li".to_vec();
         let text = screen.text.clone();
         screen.session.push_bytes(&text).unwrap();
         screen.refresh().unwrap();
@@ -459,17 +466,12 @@ mod tests {
         let session = memory
             .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
             .unwrap();
-        let mut screen = Screen {
+        let mut screen = Screen::new(
             session,
-            options: SearchOptions::new(3),
-            text: Vec::new(),
-            found: Suggestions::default(),
-            mark: 0,
-            keys: 0,
-            note: String::new(),
-            learned: Box::new(UserMemory::new()),
-            file: None,
-        };
+            SearchOptions::new(3),
+            Box::new(UserMemory::new()),
+            None,
+        );
         let offered = |screen: &Screen<'_, _>| {
             screen
                 .found
