@@ -441,7 +441,7 @@ fn convert_says_what_grouped_scales_cost() {
 
 #[test]
 fn budget_says_why_nothing_fits() {
-    let out = run(&["budget", "--flash", "64K", "--ram", "8K"]);
+    let out = run(&["budget", "--flash", "128K", "--ram", "8K"]);
     assert!(out.status.success());
     let text = String::from_utf8(out.stdout).unwrap();
     assert!(
