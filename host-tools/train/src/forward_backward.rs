@@ -5,7 +5,7 @@
 use inkling_core::image::format::VOCAB;
 use inkling_core::Dims;
 
-use crate::matrix_product::{gemm, Mat};
+use crate::matrix_product::{gemm, linear_backward, Mat};
 use crate::model_params::Layout;
 use crate::real::Real;
 use crate::selective_scan::{scan_backward, scan_forward, ScanGradScratch, ScanInputs};
@@ -394,21 +394,14 @@ pub fn backward<R: Real>(
     }
     let head_range = lay.output_head();
     let glogits = Mat::dense(&probs[..t * VOCAB], t, VOCAB);
-    gemm(
-        R::ONE,
-        glogits.t(),
-        Mat::dense(&hf[..t * d], t, d),
-        R::ONE,
-        &mut g[head_range.clone()],
-        d,
-    );
-    gemm(
-        R::ONE,
+    linear_backward(
         glogits,
-        Mat::dense(&p[head_range], VOCAB, d),
-        R::ZERO,
+        Mat::dense(&hf[..t * d], t, d),
+        &p[head_range.clone()],
+        &mut g[head_range],
         gh,
         d,
+        false,
     );
     gu[..t * d].fill(R::ZERO);
     rmsnorm_backward(
@@ -421,22 +414,14 @@ pub fn backward<R: Real>(
     );
     for (l, bs) in lay.blocks.iter().enumerate().rev() {
         let a = &blocks[l];
-        let gu_m = Mat::dense(&gu[..t * d], t, d);
-        gemm(
-            R::ONE,
-            gu_m.t(),
+        linear_backward(
+            Mat::dense(&gu[..t * d], t, d),
             Mat::dense(&a.y, t, i),
-            R::ONE,
+            &p[bs.contract.clone()],
             &mut g[bs.contract.clone()],
-            i,
-        );
-        gemm(
-            R::ONE,
-            gu_m,
-            Mat::dense(&p[bs.contract.clone()], d, i),
-            R::ZERO,
             gy,
             i,
+            false,
         );
         // y = ypre·silu(z), ypre = yss + skip·x
         let skip = &p[bs.skip.clone()];
@@ -503,39 +488,24 @@ pub fn backward<R: Real>(
                 *sb += *gv;
             }
         }
-        let gdt_m = Mat::dense(&gdt[..t * i], t, i);
-        gemm(
-            R::ONE,
-            gdt_m.t(),
+        linear_backward(
+            Mat::dense(&gdt[..t * i], t, i),
             Mat::rows(&a.sel, t, r, sr),
-            R::ONE,
+            &p[bs.step.clone()],
             &mut g[bs.step.clone()],
-            r,
-        );
-        gemm(
-            R::ONE,
-            gdt_m,
-            Mat::dense(&p[bs.step.clone()], i, r),
-            R::ZERO,
             gsel,
             sr,
+            false,
         );
-        let gsel_m = Mat::dense(&gsel[..t * sr], t, sr);
-        gemm(
-            R::ONE,
-            gsel_m.t(),
+        // x also feeds the scan and the skip path, whose gradients gx holds: add to them.
+        linear_backward(
+            Mat::dense(&gsel[..t * sr], t, sr),
             Mat::dense(&a.x, t, i),
-            R::ONE,
+            &p[bs.select.clone()],
             &mut g[bs.select.clone()],
-            i,
-        );
-        gemm(
-            R::ONE,
-            gsel_m,
-            Mat::dense(&p[bs.select.clone()], sr, i),
-            R::ONE,
             gx,
             i,
+            true,
         );
         // x = silu(xc): gx becomes dL/dxc
         for (gv, &v) in gx[..t * i].iter_mut().zip(&a.xc) {
@@ -578,22 +548,14 @@ pub fn backward<R: Real>(
                 gconv[ch * k + kk] += gconv_t[kk * i + ch];
             }
         }
-        let gxz_m = Mat::dense(&gxz[..t * 2 * i], t, 2 * i);
-        gemm(
-            R::ONE,
-            gxz_m.t(),
+        linear_backward(
+            Mat::dense(&gxz[..t * 2 * i], t, 2 * i),
             Mat::dense(&a.h, t, d),
-            R::ONE,
+            &p[bs.expand.clone()],
             &mut g[bs.expand.clone()],
-            d,
-        );
-        gemm(
-            R::ONE,
-            gxz_m,
-            Mat::dense(&p[bs.expand.clone()], 2 * i, d),
-            R::ZERO,
             gh,
             d,
+            false,
         );
         rmsnorm_backward(
             &gh[..t * d],

@@ -94,6 +94,31 @@ pub fn gemm<R: Real>(
     }
 }
 
+/// The backward pass of a linear layer y = x·Wᵀ, W dense [out, in]: adds gyᵀ·x to `gw`
+/// and writes gy·W into `gx` (rows `gx_row_stride` apart), or adds it to what `gx` holds
+/// when `add_to_gx` (an input that feeds two layers).
+pub fn linear_backward<R: Real>(
+    gy: Mat<'_, R>,
+    x: Mat<'_, R>,
+    w: &[R],
+    gw: &mut [R],
+    gx: &mut [R],
+    gx_row_stride: usize,
+    add_to_gx: bool,
+) {
+    let (outputs, inputs) = (gy.cols, x.cols);
+    gemm(R::ONE, gy.t(), x, R::ONE, gw, inputs);
+    let beta = if add_to_gx { R::ONE } else { R::ZERO };
+    gemm(
+        R::ONE,
+        gy,
+        Mat::dense(w, outputs, inputs),
+        beta,
+        gx,
+        gx_row_stride,
+    );
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
