@@ -61,119 +61,80 @@ pub trait Real:
     );
 }
 
-impl Real for f32 {
-    const ZERO: Self = 0.0;
-    const ONE: Self = 1.0;
-    fn from_f64(v: f64) -> Self {
-        v as f32
-    }
-    fn to_f64(self) -> f64 {
-        self as f64
-    }
-    fn exp(self) -> Self {
-        f32::exp(self)
-    }
-    fn ln(self) -> Self {
-        f32::ln(self)
-    }
-    fn ln_1p(self) -> Self {
-        f32::ln_1p(self)
-    }
-    fn sqrt(self) -> Self {
-        f32::sqrt(self)
-    }
-    fn abs(self) -> Self {
-        f32::abs(self)
-    }
-    fn max(self, other: Self) -> Self {
-        f32::max(self, other)
-    }
-    #[inline(always)]
-    fn exp_nonpositive(self) -> Self {
-        exp_f32_nonpositive(self)
-    }
-    #[inline(always)]
-    fn ln_1p_unit(self) -> Self {
-        inkling_core::engine::nonlinear::ln_1p_unit(self)
-    }
-    unsafe fn gemm_raw(
-        m: usize,
-        k: usize,
-        n: usize,
-        alpha: Self,
-        a: *const Self,
-        rsa: isize,
-        csa: isize,
-        b: *const Self,
-        rsb: isize,
-        csb: isize,
-        beta: Self,
-        c: *mut Self,
-        rsc: isize,
-        csc: isize,
-    ) {
-        // SAFETY: forwarded contract of this function.
-        unsafe {
-            matrixmultiply::sgemm(m, k, n, alpha, a, rsa, csa, b, rsb, csb, beta, c, rsc, csc)
+/// One `Real` impl: the methods forward to the type's own, but for the two kernels
+/// given (f32 has polynomial ones the compiler can vectorise) and the gemm routine.
+macro_rules! impl_real {
+    ($t:ident, $gemm:path, exp_nonpositive: $exp_np:expr, ln_1p_unit: $ln1p_unit:expr) => {
+        impl Real for $t {
+            const ZERO: Self = 0.0;
+            const ONE: Self = 1.0;
+            fn from_f64(v: f64) -> Self {
+                v as $t
+            }
+            fn to_f64(self) -> f64 {
+                self as f64
+            }
+            fn exp(self) -> Self {
+                $t::exp(self)
+            }
+            fn ln(self) -> Self {
+                $t::ln(self)
+            }
+            fn ln_1p(self) -> Self {
+                $t::ln_1p(self)
+            }
+            fn sqrt(self) -> Self {
+                $t::sqrt(self)
+            }
+            fn abs(self) -> Self {
+                $t::abs(self)
+            }
+            fn max(self, other: Self) -> Self {
+                $t::max(self, other)
+            }
+            #[inline(always)]
+            fn exp_nonpositive(self) -> Self {
+                $exp_np(self)
+            }
+            #[inline(always)]
+            fn ln_1p_unit(self) -> Self {
+                $ln1p_unit(self)
+            }
+            unsafe fn gemm_raw(
+                m: usize,
+                k: usize,
+                n: usize,
+                alpha: Self,
+                a: *const Self,
+                rsa: isize,
+                csa: isize,
+                b: *const Self,
+                rsb: isize,
+                csb: isize,
+                beta: Self,
+                c: *mut Self,
+                rsc: isize,
+                csc: isize,
+            ) {
+                // SAFETY: forwarded contract of this function.
+                unsafe { $gemm(m, k, n, alpha, a, rsa, csa, b, rsb, csb, beta, c, rsc, csc) }
+            }
         }
-    }
+    };
 }
 
-impl Real for f64 {
-    const ZERO: Self = 0.0;
-    const ONE: Self = 1.0;
-    fn from_f64(v: f64) -> Self {
-        v
-    }
-    fn to_f64(self) -> f64 {
-        self
-    }
-    fn exp(self) -> Self {
-        f64::exp(self)
-    }
-    fn ln(self) -> Self {
-        f64::ln(self)
-    }
-    fn ln_1p(self) -> Self {
-        f64::ln_1p(self)
-    }
-    fn sqrt(self) -> Self {
-        f64::sqrt(self)
-    }
-    fn abs(self) -> Self {
-        f64::abs(self)
-    }
-    fn max(self, other: Self) -> Self {
-        f64::max(self, other)
-    }
-    fn exp_nonpositive(self) -> Self {
-        f64::exp(self)
-    }
-    fn ln_1p_unit(self) -> Self {
-        f64::ln_1p(self)
-    }
-    unsafe fn gemm_raw(
-        m: usize,
-        k: usize,
-        n: usize,
-        alpha: Self,
-        a: *const Self,
-        rsa: isize,
-        csa: isize,
-        b: *const Self,
-        rsb: isize,
-        csb: isize,
-        beta: Self,
-        c: *mut Self,
-        rsc: isize,
-        csc: isize,
-    ) {
-        // SAFETY: forwarded contract of this function.
-        unsafe {
-            matrixmultiply::dgemm(m, k, n, alpha, a, rsa, csa, b, rsb, csb, beta, c, rsc, csc)
-        }
-    }
-}
+impl_real!(
+    f32,
+    matrixmultiply::sgemm,
+    exp_nonpositive: exp_f32_nonpositive,
+    ln_1p_unit: inkling_core::engine::nonlinear::ln_1p_unit
+);
+impl_real!(
+    f64,
+    matrixmultiply::dgemm,
+    exp_nonpositive: f64::exp,
+    ln_1p_unit: f64::ln_1p
+);
 
 /// exp(x) for x ≤ 0 without branches or libm calls: x = k·ln2 + f with
 /// |f| ≤ ln2/2 (Cody–Waite range reduction), e^f by its Taylor polynomial to
