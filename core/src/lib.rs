@@ -21,8 +21,15 @@
 //! # let _ = most_likely;
 //! # Ok::<(), inkling_core::Error>(())
 //! ```
+//!
+//! **Unsafe code** is denied crate-wide and allowed, item by item, in four places only: the
+//! inline-assembly kernels of the matrix products (`engine::kernels::cortex_m4`,
+//! `engine::kernels::x86_sse2`), the half-precision state conversion on Arm cores with an
+//! FPU (`engine::state_store`), and the one hand-out of a `static`'s buffers
+//! ([`session::StaticSessionBuffers::take`]).
 #![no_std]
 #![deny(missing_docs)]
+#![deny(unsafe_code)]
 #![cfg_attr(
     not(test),
     deny(

@@ -161,6 +161,7 @@ pub fn narrow(values: &[f32], bits: &mut [u16]) {
 /// FPSCR's reset value selects, with IEEE half precision (not the alternative format): the
 /// same bits as the `half` crate gives on the workstation.
 #[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
+#[allow(unsafe_code)] // inline assembly
 mod arm {
     use core::arch::asm;
 

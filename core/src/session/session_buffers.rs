@@ -143,6 +143,7 @@ pub struct StaticSessionBuffers<const F: usize, const W: usize, const A: usize> 
 
 // SAFETY: the buffers are reached only through `take`, which hands out the one `&mut` at
 // most once (its flag is read and set inside a critical section).
+#[allow(unsafe_code)]
 unsafe impl<const F: usize, const W: usize, const A: usize> Sync for StaticSessionBuffers<F, W, A> {}
 
 impl<const F: usize, const W: usize, const A: usize> StaticSessionBuffers<F, W, A> {
@@ -171,6 +172,7 @@ impl<const F: usize, const W: usize, const A: usize> StaticSessionBuffers<F, W, 
     /// assert_eq!(BUFFERS.take().unwrap_err(), Error::InUse { buffer: "static session buffers" });
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
+    #[allow(unsafe_code)] // the one `&mut` to the cell's buffers
     #[allow(clippy::mut_from_ref)] // handed out once: see the flag
     #[allow(clippy::type_complexity)] // the one type `new` makes, spelt out
     pub fn take(

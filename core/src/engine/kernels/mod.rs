@@ -12,7 +12,9 @@
 //! results built on them are the same bits on every target.
 
 #[cfg(all(target_arch = "arm", target_abi = "eabihf"))]
+#[allow(unsafe_code)] // inline assembly
 pub mod cortex_m4;
 pub mod portable;
 #[cfg(target_arch = "x86_64")]
+#[allow(unsafe_code)] // SSE2 intrinsics
 pub mod x86_sse2;
