@@ -26,7 +26,8 @@ pub const STARTUP_TEXT: &[u8] = b"base, this is the north hut: all well";
 /// Runs a board: validates `image` (`figure validate_cycles N`), sets up a session of `K`
 /// suggestions in `buffers` with the word lists' filter, types [`STARTUP_TEXT`], then
 /// forever takes bytes from `serial` ([`type_byte`]) and key presses from the keypad on
-/// `rows` and `columns` ([`KeyEntry::press`]), looking at both every
+/// `keypad_pins` (its rows, then its columns: [`Keypad::new`]; [`KeyEntry::press`]),
+/// looking at both every
 /// [`SCAN_PERIOD_MS`](crate::keypad::SCAN_PERIOD_MS). `cycles` reads the board's cycle
 /// counter. If the set-up fails it writes `stopped: WHAT` and waits forever.
 pub fn run<const K: usize, const F: usize, const W: usize, const A: usize>(

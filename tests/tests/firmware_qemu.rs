@@ -5,7 +5,8 @@
 //! The host side is the core's typing session run here, keystroke by keystroke, and the
 //! `inkling` command: `suggest --json`, and `next --json` (the engine on an f32 state), whose
 //! distribution must be close to the host session's after the same text (the session keeps
-//! its state in binary16).
+//! its state in binary16). Both search with the deny list the firmware has in flash, and no
+//! word of it may be offered.
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -13,10 +14,10 @@ use std::sync::OnceLock;
 
 use inkling_core::engine::recurrence::step;
 use inkling_core::engine::state_store::{narrow, widen};
-use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::session::{SearchOptions, WordFilter, WordList, DEFAULT_HISTORY};
 use inkling_core::{Model, Scratch};
 use inkling_host::keystroke_savings::session_memory;
-use inkling_tests::inkling_cli::{run_json, suggest_json};
+use inkling_tests::inkling_cli::run_json;
 use inkling_tests::logits::kl_divergence;
 
 /// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
@@ -37,6 +38,12 @@ fn repo_root() -> PathBuf {
 /// The image built into the firmware and loaded on the host.
 fn image_path() -> PathBuf {
     repo_root().join("models/demo.inkl")
+}
+
+/// The deny list the firmware builds into flash when `INKLING_DENY` is not set (its build
+/// script's default), in the core's word list format, as `inkling suggest --deny` takes it.
+fn deny_list_path() -> PathBuf {
+    repo_root().join("data/lexicon/deny-callouts.txt")
 }
 
 /// The scripted typing.
@@ -156,14 +163,18 @@ fn firmware_run() -> &'static FirmwareRun {
     })
 }
 
-/// What the firmware does with the typed bytes, done here with the same core on the host.
-fn host_session_replay(image: &[u8], typed: &[u8]) -> Vec<Keystroke> {
+/// What the firmware does with the typed bytes, done here with the same core on the host,
+/// the search limited by `filter`.
+fn host_session_replay(image: &[u8], typed: &[u8], filter: WordFilter<'_>) -> Vec<Keystroke> {
     let model = Model::from_bytes(image).expect("the image is valid");
     let mut buffers = session_memory(model.dims(), SUGGESTIONS);
     let mut session = buffers
         .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
         .expect("buffers sized by the model");
-    let options = SearchOptions::new(SUGGESTIONS);
+    let options = SearchOptions {
+        filter,
+        ..SearchOptions::new(SUGGESTIONS)
+    };
     let mut out = Vec::new();
     let lines = typed
         .split(|&b| b == b'\n')
@@ -219,7 +230,12 @@ fn suggestions_match_the_host_session_bit_for_bit() {
     // One output line per keystroke: every byte of the input but the line feeds.
     let keys = typed.iter().filter(|&&b| b != b'\n').count();
     assert_eq!(run.keystrokes.len(), keys, "one line per keystroke");
-    let host = host_session_replay(&image, &typed);
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let filter = WordFilter {
+        deny: WordList::new(&deny).expect("a word list in the core's format"),
+        lexicon: None,
+    };
+    let host = host_session_replay(&image, &typed, filter);
     for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
         // The design's promise: int8 sums plus libm in a fixed order give the same f32 bits
         // on the host and on the Cortex-M4F.
@@ -239,6 +255,38 @@ fn suggestions_match_the_host_session_bit_for_bit() {
     );
 }
 
+#[test]
+fn no_word_of_the_deny_list_in_flash_is_offered() {
+    let run = firmware_run();
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let list = WordList::new(&deny).expect("a word list in the core's format");
+    for (i, k) in run.keystrokes.iter().enumerate() {
+        for (word, _) in &k.suggestions {
+            assert!(!list.contains(word), "keystroke {i} offers a denied word: {}", show(k));
+        }
+    }
+    // The check means something only if the search, left alone, offers denied words on this
+    // script: the host session without the list must offer some (and the firmware, with it,
+    // then offers others there).
+    let typed = std::fs::read(typing_path()).expect("typing.txt");
+    let image = std::fs::read(image_path()).expect("the image");
+    let unfiltered = host_session_replay(&image, &typed, WordFilter::default());
+    let denied: Vec<&Keystroke> = unfiltered
+        .iter()
+        .filter(|k| k.suggestions.iter().any(|(w, _)| list.contains(w)))
+        .collect();
+    eprintln!(
+        "{} of {} keystrokes would offer a denied word without the list",
+        denied.len(),
+        unfiltered.len()
+    );
+    assert!(
+        denied.len() >= 3,
+        "the deny list hardly bites on this script: {} keystrokes",
+        denied.len()
+    );
+}
+
 /// The keystrokes whose text can travel as a command-line argument (non-empty UTF-8).
 fn texts(run: &FirmwareRun) -> Vec<(&Keystroke, &str)> {
     run.keystrokes
@@ -253,7 +301,17 @@ fn suggestions_match_the_inkling_command() {
     let run = firmware_run();
     let image = image_path();
     for (k, text) in texts(run) {
-        let json = suggest_json(&image, text, SUGGESTIONS);
+        let json = run_json([
+            "suggest".as_ref(),
+            image.as_os_str(),
+            "--text".as_ref(),
+            text.as_ref(),
+            "--count".as_ref(),
+            SUGGESTIONS.to_string().as_ref(),
+            "--deny".as_ref(),
+            deny_list_path().as_os_str(),
+            "--json".as_ref(),
+        ]);
         let list = json["suggestions"]
             .as_array()
             .unwrap_or_else(|| panic!("inkling suggest: no \"suggestions\" in {json}"));
