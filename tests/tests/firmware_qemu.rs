@@ -262,7 +262,11 @@ fn no_word_of_the_deny_list_in_flash_is_offered() {
     let list = WordList::new(&deny).expect("a word list in the core's format");
     for (i, k) in run.keystrokes.iter().enumerate() {
         for (word, _) in &k.suggestions {
-            assert!(!list.contains(word), "keystroke {i} offers a denied word: {}", show(k));
+            assert!(
+                !list.contains(word),
+                "keystroke {i} offers a denied word: {}",
+                show(k)
+            );
         }
     }
     // The check means something only if the search, left alone, offers denied words on this
