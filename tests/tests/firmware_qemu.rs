@@ -117,49 +117,83 @@ fn parse_keystroke(line: &str) -> Keystroke {
     }
 }
 
+/// Runs `run.sh` on the Cortex-M4F with the typed bytes of `input`, the lexicon `lexicon`
+/// built into flash if given (and the default deny list).
+fn run_script(input: &Path, lexicon: Option<&Path>) -> FirmwareRun {
+    let out = tempfile::tempdir().expect("temporary folder");
+    let script = repo_root().join("tests/firmware/run.sh");
+    let mut command = Command::new("bash");
+    command
+        .arg(&script)
+        .args(["--skip-unit", "--input"])
+        .arg(input)
+        .arg("--out")
+        .arg(out.path())
+        .env("INKLING_IMAGE", image_path())
+        .env_remove("INKLING_DENY");
+    match lexicon {
+        Some(path) => command.env("INKLING_LEXICON", path),
+        None => command.env_remove("INKLING_LEXICON"),
+    };
+    let output = command
+        .output()
+        .unwrap_or_else(|e| panic!("could not start {}: {e}", script.display()));
+    assert!(
+        output.status.success(),
+        "{} failed ({}):\n{}{}",
+        script.display(),
+        output.status,
+        String::from_utf8_lossy(&output.stdout),
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let read = |name: &str| {
+        let path = out.path().join(name);
+        std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("reading {}: {e}", path.display()))
+    };
+    let keystrokes = read("suggestions.txt")
+        .lines()
+        .map(parse_keystroke)
+        .collect();
+    let figures = read("figures.txt")
+        .lines()
+        .map(|l| {
+            let (name, value) = l.split_once(' ').expect("NAME VALUE");
+            (name.to_string(), value.parse().expect("an integer figure"))
+        })
+        .collect();
+    FirmwareRun {
+        keystrokes,
+        figures,
+    }
+}
+
 /// Runs the script once for all the tests of this file.
 fn firmware_run() -> &'static FirmwareRun {
     static RUN: OnceLock<FirmwareRun> = OnceLock::new();
+    RUN.get_or_init(|| run_script(&typing_path(), None))
+}
+
+/// The lexicon the board profiles build in.
+fn lexicon_path() -> PathBuf {
+    repo_root().join("data/lexicon/scenario-words.txt")
+}
+
+/// Lines of the typing script the run with a lexicon types.
+const LEXICON_LINES: usize = 4;
+
+/// The first lines of the script typed again with the lexicon in flash. It runs after the
+/// run without one, since both build the firmware in its one target folder.
+fn lexicon_run() -> &'static (Vec<u8>, FirmwareRun) {
+    static RUN: OnceLock<(Vec<u8>, FirmwareRun)> = OnceLock::new();
     RUN.get_or_init(|| {
-        let out = tempfile::tempdir().expect("temporary folder");
-        let script = repo_root().join("tests/firmware/run.sh");
-        let output = Command::new("bash")
-            .arg(&script)
-            .args(["--skip-unit", "--input"])
-            .arg(typing_path())
-            .arg("--out")
-            .arg(out.path())
-            .env("INKLING_IMAGE", image_path())
-            .output()
-            .unwrap_or_else(|e| panic!("could not start {}: {e}", script.display()));
-        assert!(
-            output.status.success(),
-            "{} failed ({}):\n{}{}",
-            script.display(),
-            output.status,
-            String::from_utf8_lossy(&output.stdout),
-            String::from_utf8_lossy(&output.stderr)
-        );
-        let read = |name: &str| {
-            let path = out.path().join(name);
-            std::fs::read_to_string(&path)
-                .unwrap_or_else(|e| panic!("reading {}: {e}", path.display()))
-        };
-        let keystrokes = read("suggestions.txt")
-            .lines()
-            .map(parse_keystroke)
-            .collect();
-        let figures = read("figures.txt")
-            .lines()
-            .map(|l| {
-                let (name, value) = l.split_once(' ').expect("NAME VALUE");
-                (name.to_string(), value.parse().expect("an integer figure"))
-            })
-            .collect();
-        FirmwareRun {
-            keystrokes,
-            figures,
-        }
+        firmware_run();
+        let typed = std::fs::read(typing_path()).expect("typing.txt");
+        let lines: Vec<&[u8]> = typed.split_inclusive(|&b| b == b'\n').collect();
+        let first = lines[..LEXICON_LINES].concat();
+        let input = tempfile::NamedTempFile::new().expect("temporary file");
+        std::fs::write(input.path(), &first).expect("writing the typed lines");
+        let run = run_script(input.path(), Some(&lexicon_path()));
+        (first, run)
     })
 }
 
@@ -288,6 +322,49 @@ fn no_word_of_the_deny_list_in_flash_is_offered() {
         denied.len() >= 3,
         "the deny list hardly bites on this script: {} keystrokes",
         denied.len()
+    );
+}
+
+#[test]
+fn a_lexicon_in_flash_limits_the_words_as_on_the_host() {
+    let (typed, run) = lexicon_run();
+    let image = std::fs::read(image_path()).expect("the image");
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let lexicon_bytes = std::fs::read(lexicon_path()).expect("the lexicon");
+    let lexicon = WordList::new(&lexicon_bytes).expect("a word list in the core's format");
+    let filter = WordFilter {
+        deny: WordList::new(&deny).expect("a word list in the core's format"),
+        lexicon: Some(lexicon),
+    };
+    let host = host_session_replay(&image, typed, filter);
+    assert_eq!(run.keystrokes.len(), host.len(), "one line per keystroke");
+    for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
+        assert_eq!(
+            device,
+            host,
+            "keystroke {i}: firmware {} / host {}",
+            show(device),
+            show(host)
+        );
+        for (word, _) in &device.suggestions {
+            assert!(lexicon.contains(word), "keystroke {i}: {}", show(device));
+        }
+    }
+    // The lexicon changes what is offered: the run without it offers words outside it on
+    // the same lines (the model's half-words such as "helico").
+    let without = &firmware_run().keystrokes[..run.keystrokes.len()];
+    let outside = without
+        .iter()
+        .flat_map(|k| &k.suggestions)
+        .filter(|(w, _)| !lexicon.contains(w))
+        .count();
+    assert!(
+        outside > 0,
+        "no word outside the lexicon offered without it"
+    );
+    assert_eq!(
+        run.figure("word_lists_bytes"),
+        (deny.len() + lexicon_bytes.len()) as u64
     );
 }
 
