@@ -1,8 +1,8 @@
 //! The program to copy: a model image and its word lists (a deny list, a lexicon if one is
 //! given) in flash, a session's buffers in a static, typed bytes in, the three likeliest
-//! words out (one line per keystroke, tab-separated), on any
-//! of the three cores. `cargo run --release --bin minimal` runs it under QEMU; on a board,
-//! replace the host streams with a UART (any `embedded_io::Read` and `Write`).
+//! words out (one line per keystroke, tab-separated), on any of the three cores. `cargo run
+//! --release --bin minimal` runs it under QEMU; on a board, replace the host streams with a
+//! UART (any `embedded_io::Read` and `Write`).
 #![no_std]
 #![no_main]
 
