@@ -1,14 +1,20 @@
 //! Puts the memory layout of the target's core (`memory/cortex-m.x` for Arm,
 //! `memory/riscv.x` for RISC-V) on the linker's search path as `memory.x`, and picks the model
 //! image that is built into flash: the file named by `INKLING_IMAGE` (relative paths are taken
-//! from the package's folder), or `../models/demo.inkl`, the bundled demo model. The board
-//! profiles (`boards/`) run this script too, for their image and buffer sizes.
+//! from the package's folder), or `../models/demo.inkl`, the bundled demo model; and the word
+//! lists built into flash beside it: the deny list named by `INKLING_DENY` (default
+//! `../data/lexicon/deny-callouts.txt`; empty: none) and the lexicon named by
+//! `INKLING_LEXICON` (default and empty: none). The board profiles (`boards/`) run this
+//! script too, for their image, word lists and buffer sizes.
 
 use std::env;
 use std::fs;
 use std::path::{Path, PathBuf};
 
 const DEFAULT_IMAGE: &str = "../models/demo.inkl";
+
+/// The deny list built in when `INKLING_DENY` is not set: the demo's placeholder list.
+const DEFAULT_DENY_LIST: &str = "../data/lexicon/deny-callouts.txt";
 
 /// Suggestions per keystroke, and so beams of the session (passed on to main.rs).
 const SUGGESTIONS: usize = 3;
@@ -67,7 +73,52 @@ fn main() {
     println!("cargo:rustc-env=INKLING_IMAGE_FILE={}", image.display());
     if on_device {
         write_buffer_sizes(&image, &out);
+        write_word_lists(&manifest, &out);
     }
+}
+
+/// The word list named by the variable `name` (`default` when it is not set; none when it is
+/// empty), checked now in the core's word list format so that a bad list fails the build,
+/// naming its line; as the expression that puts its bytes in flash.
+fn word_list_bytes(manifest: &Path, name: &str, default: Option<&str>) -> Option<String> {
+    println!("cargo:rerun-if-env-changed={name}");
+    let chosen = env::var_os(name).map_or_else(
+        || default.map(PathBuf::from),
+        |v| (!v.is_empty()).then(|| PathBuf::from(v)),
+    )?;
+    let path = manifest.join(chosen);
+    let bytes =
+        fs::read(&path).unwrap_or_else(|e| panic!("{name}: reading {}: {e}", path.display()));
+    if let Err(e) = inkling_core::session::WordList::new(&bytes) {
+        panic!(
+            "{name}: {} is not a word list in the core's format (one word a line, sorted \
+             ascending bytewise after folding case, no comments or empty lines; `inkling \
+             suggest --deny` takes it as it is): {e}",
+            path.display()
+        );
+    }
+    println!("cargo:rerun-if-changed={}", path.display());
+    let text = path
+        .to_str()
+        .unwrap_or_else(|| panic!("{name}: the path {} is not UTF-8", path.display()));
+    Some(format!("include_bytes!({text:?})"))
+}
+
+/// Writes `word_lists.rs`: the static `WORD_LISTS`, the deny list and the lexicon put in
+/// flash with `include_bytes!`, as they are (nothing is copied to RAM).
+fn write_word_lists(manifest: &Path, out: &Path) {
+    let deny = word_list_bytes(manifest, "INKLING_DENY", Some(DEFAULT_DENY_LIST));
+    let lexicon = word_list_bytes(manifest, "INKLING_LEXICON", None);
+    let text = format!(
+        "/// The word lists built into flash (`INKLING_DENY`, `INKLING_LEXICON`).\n\
+         static WORD_LISTS: inkling_firmware_example::flash_word_lists::FlashWordLists =\n    \
+         inkling_firmware_example::flash_word_lists::FlashWordLists {{\n        \
+         deny: {},\n        lexicon: {},\n    }};\n",
+        deny.as_deref().unwrap_or("b\"\""),
+        lexicon.map_or_else(|| "None".to_string(), |l| format!("Some({l})")),
+    );
+    let path = out.join("word_lists.rs");
+    fs::write(&path, text).unwrap_or_else(|e| panic!("writing {}: {e}", path.display()));
 }
 
 /// Validates the image now (a bad one fails the build, not the device) and writes the

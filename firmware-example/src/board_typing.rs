@@ -1,14 +1,96 @@
-//! What a board profile does with a session: type a text at start-up, then take 12-key
-//! presses, writing one suggestion line (see [`suggestion_line`](crate::suggestion_line))
-//! and the cycles of each keystroke (`figure NAME VALUE` lines) to any `embedded_io::Write`
-//! (a UART or an RTT channel). The cycle counter is the board's own, passed in as a closure.
+//! The program every board profile runs, written once over the board's parts ([`run`]): a
+//! session over the image and word lists in flash, a scenario text typed at start-up, then
+//! bytes typed on a serial terminal and 12-key presses on a keypad, each answered with one
+//! suggestion line (see [`suggestion_line`](crate::suggestion_line)) and its cycles
+//! (`figure NAME VALUE` lines), on the serial port. A board brings its clocks, pins, serial
+//! port (any `embedded_io` 0.7 `Read + ReadReady + Write`; [`NbSerial`](crate::nb_serial)
+//! adapts an `embedded-hal-nb` one), delay and cycle counter, and its memory layout.
 
-use embedded_io::Write;
+use embedded_hal::delay::DelayNs;
+use embedded_hal::digital::{InputPin, OutputPin};
+use embedded_io::{Read, ReadReady, Write};
 use inkling_core::engine::weights::Weights;
-use inkling_core::session::{KeyMap, SearchOptions, Session, MAX_WORD_LEN};
+use inkling_core::session::{
+    KeyMap, SearchOptions, Session, StaticSessionBuffers, DEFAULT_HISTORY, MAX_WORD_LEN,
+};
+use inkling_core::Model;
 
+use crate::flash_word_lists::FlashWordLists;
+use crate::keypad::{Keypad, SCAN_PERIOD_MS};
 use crate::number_text::{decimal_u64, U64_DIGITS};
 use crate::suggestion_line::write_line;
+
+/// Typed at start-up, for the figures (invented).
+pub const STARTUP_TEXT: &[u8] = b"base, this is the north hut: all well";
+
+/// Runs a board: validates `image` (`figure validate_cycles N`), sets up a session of `K`
+/// suggestions in `buffers` with the word lists' filter, types [`STARTUP_TEXT`], then
+/// forever takes bytes from `serial` ([`type_byte`]) and key presses from the keypad on
+/// `keypad_pins` (its rows, then its columns: [`Keypad::new`]; [`KeyEntry::press`]),
+/// looking at both every
+/// [`SCAN_PERIOD_MS`](crate::keypad::SCAN_PERIOD_MS). `cycles` reads the board's cycle
+/// counter. If the set-up fails it writes `stopped: WHAT` and waits forever.
+pub fn run<const K: usize, const F: usize, const W: usize, const A: usize>(
+    image: &'static [u8],
+    words: &FlashWordLists,
+    buffers: &'static StaticSessionBuffers<F, W, A>,
+    mut serial: impl Read + ReadReady + Write,
+    keypad_pins: ([impl OutputPin; 4], [impl InputPin; 3]),
+    mut delay: impl DelayNs,
+    mut cycles: impl FnMut() -> u64,
+) -> ! {
+    let start = cycles();
+    let Ok(model) = Model::from_bytes(image) else {
+        stop(&mut serial, &mut delay, "the built-in image is not valid")
+    };
+    let _ = write_figure(&mut serial, "validate_cycles", cycles().wrapping_sub(start));
+    let Ok(filter) = words.filter() else {
+        stop(&mut serial, &mut delay, "a built-in word list is not valid")
+    };
+    let Ok(mut session) = buffers.session::<_, K, DEFAULT_HISTORY>(model) else {
+        stop(
+            &mut serial,
+            &mut delay,
+            "the session buffers are too small or taken",
+        )
+    };
+    let Ok(mut keypad) = Keypad::new(keypad_pins.0, keypad_pins.1) else {
+        stop(&mut serial, &mut delay, "a keypad row pin failed")
+    };
+    let options = SearchOptions {
+        filter,
+        ..SearchOptions::new(K)
+    };
+    for &byte in STARTUP_TEXT {
+        let _ = type_byte(&mut session, &options, byte, &mut serial, &mut cycles);
+    }
+    let _ = session.clear();
+
+    let mut entry = KeyEntry::new();
+    loop {
+        let mut byte = [0u8; 1];
+        while serial.read_ready().unwrap_or(false) {
+            if let Ok(1) = serial.read(&mut byte) {
+                let _ = type_byte(&mut session, &options, byte[0], &mut serial, &mut cycles);
+            }
+        }
+        if let Ok(Some(key)) = keypad.scan(&mut delay) {
+            let _ = entry.press(key, &mut session, &options, &mut serial, &mut cycles);
+        }
+        delay.delay_ms(SCAN_PERIOD_MS);
+    }
+}
+
+/// Writes `stopped: WHAT` and waits forever.
+fn stop(out: &mut impl Write, delay: &mut impl DelayNs, what: &str) -> ! {
+    let _ = out
+        .write_all(b"stopped: ")
+        .and_then(|()| out.write_all(what.as_bytes()))
+        .and_then(|()| out.write_all(b"\n"));
+    loop {
+        delay.delay_ms(1000);
+    }
+}
 
 /// Writes `figure NAME VALUE`.
 pub fn write_figure<O: Write>(out: &mut O, name: &str, value: u64) -> Result<(), O::Error> {
@@ -20,13 +102,16 @@ pub fn write_figure<O: Write>(out: &mut O, name: &str, value: u64) -> Result<(),
     out.write_all(b"\n")
 }
 
-/// Types `text` into `session` byte by byte (a refused byte, at a word's longest, is
-/// skipped) and after each writes the suggestions and `figure keystroke_cycles N`: the
-/// cycles of the edit and the whole search, as `cycles` counts them.
-pub fn type_text<X, O, const K: usize, const H: usize>(
+/// Handles one typed byte as the QEMU programs do: `0x08` and `0x7F` take the last byte
+/// back, a carriage return or line feed starts afresh (a terminal sends CR for Enter), any
+/// other byte is pushed (a refused one, at a word's longest, changes nothing). Then it
+/// writes the text typed so far (the session's history, its last `H` bytes) with the
+/// suggestions, and `figure keystroke_cycles N`: the cycles of the edit and the whole
+/// search, as `cycles` counts them.
+pub fn type_byte<X, O, const K: usize, const H: usize>(
     session: &mut Session<'_, X, K, H>,
     options: &SearchOptions<'_>,
-    text: &[u8],
+    byte: u8,
     out: &mut O,
     cycles: &mut impl FnMut() -> u64,
 ) -> Result<(), O::Error>
@@ -34,16 +119,28 @@ where
     X: Weights,
     O: Write,
 {
-    for (typed, &byte) in text.iter().enumerate() {
-        let start = cycles();
-        let found = session.push(byte).and_then(|()| session.suggest(options));
-        let spent = cycles().wrapping_sub(start);
-        let list = found.as_ref().map_or(&[][..], |f| f.list.as_slice());
-        let shown = list.iter().map(|s| (s.text.as_slice(), s.logprob));
-        write_line(out, text.get(..=typed).unwrap_or(text), shown)?;
-        write_figure(out, "keystroke_cycles", spent)?;
-    }
-    Ok(())
+    let start = cycles();
+    let edited = match byte {
+        0x08 | 0x7f => session.backspace().map(|_| ()),
+        b'\r' | b'\n' => session.clear(),
+        _ => session.push(byte),
+    };
+    let found = match edited {
+        Ok(()) | Err(inkling_core::Error::CapacityExceeded { .. }) => session.suggest(options),
+        Err(e) => Err(e),
+    };
+    let spent = cycles().wrapping_sub(start);
+    let mut text = [0u8; H];
+    let typed = session
+        .history()
+        .iter()
+        .zip(text.iter_mut())
+        .map(|(b, t)| *t = b)
+        .count();
+    let list = found.as_ref().map_or(&[][..], |f| f.list.as_slice());
+    let shown = list.iter().map(|s| (s.text.as_slice(), s.logprob));
+    write_line(out, text.get(..typed).unwrap_or(&[]), shown)?;
+    write_figure(out, "keystroke_cycles", spent)
 }
 
 /// 12-key entry on a keypad: digit keys spell the current word (`Session::keys`), `0` takes
@@ -119,11 +216,10 @@ impl KeyEntry {
 mod tests {
     use super::*;
     use inkling_core::image::example::tiny_image;
-    use inkling_core::session::SessionBuffers;
-    use inkling_core::Model;
+    use inkling_core::session::{SessionBuffers, WordFilter, WordList};
 
     #[test]
-    fn a_typed_text_gives_one_line_and_one_figure_a_byte() {
+    fn each_typed_byte_gives_one_line_and_one_figure() {
         let image = tiny_image();
         let model = Model::from_bytes(&image).unwrap();
         let mut buffers = SessionBuffers::<[f32; 8192], [f32; 512], [i16; 64]>::new();
@@ -134,20 +230,65 @@ mod tests {
             clock += 10;
             clock
         };
-        type_text(
-            &mut session,
-            &SearchOptions::new(2),
-            b"ab c",
-            &mut out,
-            &mut cycles,
-        )
-        .unwrap();
+        let options = SearchOptions::new(2);
+        for &byte in b"ab c\x7f\rd" {
+            type_byte(&mut session, &options, byte, &mut out, &mut cycles).unwrap();
+        }
         let text = String::from_utf8(out).unwrap();
         let lines: Vec<&str> = text.lines().collect();
-        assert_eq!(lines.len(), 8);
-        assert!(lines[0].starts_with("a") && lines[6].starts_with("ab c"));
+        assert_eq!(lines.len(), 14);
+        // The text so far, after a backspace and after the carriage return that clears it.
+        assert!(lines[0].starts_with('a') && lines[6].starts_with("ab c"));
+        assert!(lines[8].starts_with("ab ") && !lines[8].starts_with("ab c"));
+        assert!(lines[10].is_empty() || lines[10].starts_with('\t'));
+        assert!(lines[12].starts_with('d'));
         // Each keystroke is timed between two reads of the counter: 10 apart here.
         assert_eq!(lines[1], "figure keystroke_cycles 10");
+    }
+
+    #[test]
+    fn a_denied_word_is_not_offered() {
+        let image = tiny_image();
+        let model = Model::from_bytes(&image).unwrap();
+        let mut buffers = SessionBuffers::<[f32; 8192], [f32; 512], [i16; 64]>::new();
+        let mut session: Session<_, 2> = buffers.session(model).unwrap();
+        let (mut out, mut cycles) = (Vec::new(), || 0u64);
+        let options = SearchOptions::new(2);
+        type_byte(&mut session, &options, b'a', &mut out, &mut cycles).unwrap();
+        // The first word offered after "a", then the same keystroke with it denied.
+        let text = String::from_utf8(out).unwrap();
+        let first = text
+            .lines()
+            .next()
+            .unwrap()
+            .split('\t')
+            .nth(1)
+            .unwrap()
+            .to_string();
+        let denied = format!("{first}\n");
+        let options = SearchOptions {
+            filter: WordFilter {
+                deny: WordList::new(denied.as_bytes()).unwrap(),
+                lexicon: None,
+            },
+            ..SearchOptions::new(2)
+        };
+        session.clear().unwrap();
+        let mut out = Vec::new();
+        type_byte(&mut session, &options, b'a', &mut out, &mut cycles).unwrap();
+        let text = String::from_utf8(out).unwrap();
+        let words: Vec<&str> = text
+            .lines()
+            .next()
+            .unwrap()
+            .split('\t')
+            .skip(1)
+            .step_by(2)
+            .collect();
+        assert!(
+            !words.contains(&first.as_str()),
+            "{first:?} offered: {words:?}"
+        );
     }
 
     #[test]

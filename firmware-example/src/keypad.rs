@@ -6,8 +6,8 @@
 //! key at that row and column is closed.
 //!
 //! Debounce: a reading (no key, one key, several keys) must be seen on
-//! [`DEBOUNCE_SCANS`] consecutive scans before it counts. Call [`Keypad::scan`] every 5 ms,
-//! so a press counts after 20 ms of stable contact; contact bounce settles well within that
+//! [`DEBOUNCE_SCANS`] consecutive scans before it counts. Call [`Keypad::scan`] every
+//! [`SCAN_PERIOD_MS`], so a press counts after 20 ms of stable contact; contact bounce settles well within that
 //! (common practice, no source). A key is reported once, when it becomes the only key down
 //! after all keys were up; a second key pressed before the first is released is ignored (no
 //! rollover), which suits one-finger typing on a 12-key panel.
@@ -21,6 +21,9 @@ pub const LAYOUT: [[u8; 3]; 4] = [*b"123", *b"456", *b"789", *b"*0#"];
 
 /// Consecutive equal scans before a reading counts.
 pub const DEBOUNCE_SCANS: u8 = 4;
+
+/// Milliseconds between two scans.
+pub const SCAN_PERIOD_MS: u32 = 5;
 
 /// Microseconds between driving a row and reading the columns.
 pub const SETTLE_US: u32 = 10;

@@ -12,8 +12,10 @@
 //! on the status log, then exits QEMU with status 0. What differs between the cores is in
 //! the library's `device` module.
 //!
-//! The model image is built in from flash (`INKLING_IMAGE` at build time) and never copied;
-//! all RAM is in statics sized from the image's dimensions, plus the stack.
+//! The model image is built in from flash (`INKLING_IMAGE` at build time) and never copied,
+//! and so are the deny list and the lexicon of the search (`INKLING_DENY`, `INKLING_LEXICON`;
+//! see [`inkling_firmware_example::flash_word_lists`]); all RAM is in statics sized from the
+//! image's dimensions, plus the stack.
 #![no_std]
 #![no_main]
 
@@ -42,6 +44,8 @@ use defmt_semihosting as _;
 include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
 // CHUNK_WORK_LEN, CHUNK_ACT_LEN: the prefill passes measured here.
 include!(concat!(env!("OUT_DIR"), "/harness_sizes.rs"));
+// WORD_LISTS: the deny list and the lexicon, in flash.
+include!(concat!(env!("OUT_DIR"), "/word_lists.rs"));
 
 /// Bytes aligned to 16, as the image's payloads expect for direct word loads.
 #[repr(C, align(16))]
@@ -135,6 +139,11 @@ fn main() -> ! {
     log.figure("validate_instructions", since(start));
     let dims = *model.dims();
     log.figure("image_bytes", IMAGE.0.len() as u64);
+    let lexicon_bytes = WORD_LISTS.lexicon.map_or(0, <[u8]>::len);
+    log.figure(
+        "word_lists_bytes",
+        (WORD_LISTS.deny.len() + lexicon_bytes) as u64,
+    );
     log.figure("state_bytes", dims.state_bytes() as u64);
     log.figure("session_buffer_bytes", 4 * SESSION_FLOATS as u64);
     log.figure("scratch_bytes", dims.scratch_bytes() as u64);
@@ -196,7 +205,13 @@ fn main() -> ! {
         Ok(session) => session,
         Err(e) => fail(&mut log, "session buffers", &e, ExitCode::Internal),
     };
-    let options = SearchOptions::new(SUGGESTIONS);
+    let options = match WORD_LISTS.filter() {
+        Ok(filter) => SearchOptions {
+            filter,
+            ..SearchOptions::new(SUGGESTIONS)
+        },
+        Err(e) => fail(&mut log, "built-in word list", &e, ExitCode::BadImage),
+    };
 
     // Suggestion lines on standard output; with defmt, its frames take standard output, so
     // the lines go to standard error.

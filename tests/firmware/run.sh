@@ -29,7 +29,9 @@
 #                keystrokes.txt, keystroke_totals.txt and keypresses.txt (instructions of
 #                each, one a line)
 #   --skip-unit  do not run the firmware crate's unit tests on the host first
-# environment: INKLING_IMAGE picks the model image built in (see firmware-example/README.md).
+# environment: INKLING_IMAGE picks the model image built in, INKLING_DENY and INKLING_LEXICON
+# the word lists (see firmware-example/README.md); the run checks that no word of the deny
+# list is offered.
 set -euo pipefail
 
 here=$(cd "$(dirname "$0")" && pwd)
@@ -117,6 +119,20 @@ if [ "$status" -ne 0 ]; then
   echo "run.sh: the firmware exited with status $status (124: timed out)" >&2
   cat "$out/log.txt" >&2
   exit 1
+fi
+
+# No word of the deny list built into flash is ever offered. The session matches the list in
+# any case; its words and the ones checked here are ASCII, so `tolower` is that folding.
+deny_list=${INKLING_DENY-../data/lexicon/deny-callouts.txt}
+if [ -n "$deny_list" ]; then
+  awk -F '\t' -v list="$deny_list" '
+    BEGIN { while ((getline w < list) > 0) deny[tolower(w)] = 1; n = length(deny) }
+    { for (i = 2; i <= NF; i += 2) if (tolower($i) in deny) {
+        printf "run.sh: line %d offers %s, a word of the deny list %s\n", NR, $i, list > "/dev/stderr"
+        bad = 1 } }
+    END { if (bad) exit 1
+          printf "== the deny list (%d words): none offered in %d lines\n", n, NR > "/dev/stderr" }' \
+    "$out/suggestions.txt"
 fi
 
 sed -n 's/^figure //p' "$out/log.txt" | grep -v '^keystroke \|^keystroke_total \|^keypress ' >"$out/figures.txt"

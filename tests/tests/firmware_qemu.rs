@@ -5,7 +5,8 @@
 //! The host side is the core's typing session run here, keystroke by keystroke, and the
 //! `inkling` command: `suggest --json`, and `next --json` (the engine on an f32 state), whose
 //! distribution must be close to the host session's after the same text (the session keeps
-//! its state in binary16).
+//! its state in binary16). Both search with the deny list the firmware has in flash, and no
+//! word of it may be offered.
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -13,10 +14,10 @@ use std::sync::OnceLock;
 
 use inkling_core::engine::recurrence::step;
 use inkling_core::engine::state_store::{narrow, widen};
-use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::session::{SearchOptions, WordFilter, WordList, DEFAULT_HISTORY};
 use inkling_core::{Model, Scratch};
 use inkling_host::keystroke_savings::session_memory;
-use inkling_tests::inkling_cli::{run_json, suggest_json};
+use inkling_tests::inkling_cli::run_json;
 use inkling_tests::logits::kl_divergence;
 
 /// Suggestions per keystroke, as the firmware is built (`SUGGESTIONS` in its build script).
@@ -37,6 +38,12 @@ fn repo_root() -> PathBuf {
 /// The image built into the firmware and loaded on the host.
 fn image_path() -> PathBuf {
     repo_root().join("models/demo.inkl")
+}
+
+/// The deny list the firmware builds into flash when `INKLING_DENY` is not set (its build
+/// script's default), in the core's word list format, as `inkling suggest --deny` takes it.
+fn deny_list_path() -> PathBuf {
+    repo_root().join("data/lexicon/deny-callouts.txt")
 }
 
 /// The scripted typing.
@@ -110,60 +117,98 @@ fn parse_keystroke(line: &str) -> Keystroke {
     }
 }
 
+/// Runs `run.sh` on the Cortex-M4F with the typed bytes of `input`, the lexicon `lexicon`
+/// built into flash if given (and the default deny list).
+fn run_script(input: &Path, lexicon: Option<&Path>) -> FirmwareRun {
+    let out = tempfile::tempdir().expect("temporary folder");
+    let script = repo_root().join("tests/firmware/run.sh");
+    let mut command = Command::new("bash");
+    command
+        .arg(&script)
+        .args(["--skip-unit", "--input"])
+        .arg(input)
+        .arg("--out")
+        .arg(out.path())
+        .env("INKLING_IMAGE", image_path())
+        .env_remove("INKLING_DENY");
+    match lexicon {
+        Some(path) => command.env("INKLING_LEXICON", path),
+        None => command.env_remove("INKLING_LEXICON"),
+    };
+    let output = command
+        .output()
+        .unwrap_or_else(|e| panic!("could not start {}: {e}", script.display()));
+    assert!(
+        output.status.success(),
+        "{} failed ({}):\n{}{}",
+        script.display(),
+        output.status,
+        String::from_utf8_lossy(&output.stdout),
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let read = |name: &str| {
+        let path = out.path().join(name);
+        std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("reading {}: {e}", path.display()))
+    };
+    let keystrokes = read("suggestions.txt")
+        .lines()
+        .map(parse_keystroke)
+        .collect();
+    let figures = read("figures.txt")
+        .lines()
+        .map(|l| {
+            let (name, value) = l.split_once(' ').expect("NAME VALUE");
+            (name.to_string(), value.parse().expect("an integer figure"))
+        })
+        .collect();
+    FirmwareRun {
+        keystrokes,
+        figures,
+    }
+}
+
 /// Runs the script once for all the tests of this file.
 fn firmware_run() -> &'static FirmwareRun {
     static RUN: OnceLock<FirmwareRun> = OnceLock::new();
+    RUN.get_or_init(|| run_script(&typing_path(), None))
+}
+
+/// The lexicon the board profiles build in.
+fn lexicon_path() -> PathBuf {
+    repo_root().join("data/lexicon/scenario-words.txt")
+}
+
+/// Lines of the typing script the run with a lexicon types.
+const LEXICON_LINES: usize = 4;
+
+/// The first lines of the script typed again with the lexicon in flash. It runs after the
+/// run without one, since both build the firmware in its one target folder.
+fn lexicon_run() -> &'static (Vec<u8>, FirmwareRun) {
+    static RUN: OnceLock<(Vec<u8>, FirmwareRun)> = OnceLock::new();
     RUN.get_or_init(|| {
-        let out = tempfile::tempdir().expect("temporary folder");
-        let script = repo_root().join("tests/firmware/run.sh");
-        let output = Command::new("bash")
-            .arg(&script)
-            .args(["--skip-unit", "--input"])
-            .arg(typing_path())
-            .arg("--out")
-            .arg(out.path())
-            .env("INKLING_IMAGE", image_path())
-            .output()
-            .unwrap_or_else(|e| panic!("could not start {}: {e}", script.display()));
-        assert!(
-            output.status.success(),
-            "{} failed ({}):\n{}{}",
-            script.display(),
-            output.status,
-            String::from_utf8_lossy(&output.stdout),
-            String::from_utf8_lossy(&output.stderr)
-        );
-        let read = |name: &str| {
-            let path = out.path().join(name);
-            std::fs::read_to_string(&path)
-                .unwrap_or_else(|e| panic!("reading {}: {e}", path.display()))
-        };
-        let keystrokes = read("suggestions.txt")
-            .lines()
-            .map(parse_keystroke)
-            .collect();
-        let figures = read("figures.txt")
-            .lines()
-            .map(|l| {
-                let (name, value) = l.split_once(' ').expect("NAME VALUE");
-                (name.to_string(), value.parse().expect("an integer figure"))
-            })
-            .collect();
-        FirmwareRun {
-            keystrokes,
-            figures,
-        }
+        firmware_run();
+        let typed = std::fs::read(typing_path()).expect("typing.txt");
+        let lines: Vec<&[u8]> = typed.split_inclusive(|&b| b == b'\n').collect();
+        let first = lines[..LEXICON_LINES].concat();
+        let input = tempfile::NamedTempFile::new().expect("temporary file");
+        std::fs::write(input.path(), &first).expect("writing the typed lines");
+        let run = run_script(input.path(), Some(&lexicon_path()));
+        (first, run)
     })
 }
 
-/// What the firmware does with the typed bytes, done here with the same core on the host.
-fn host_session_replay(image: &[u8], typed: &[u8]) -> Vec<Keystroke> {
+/// What the firmware does with the typed bytes, done here with the same core on the host,
+/// the search limited by `filter`.
+fn host_session_replay(image: &[u8], typed: &[u8], filter: WordFilter<'_>) -> Vec<Keystroke> {
     let model = Model::from_bytes(image).expect("the image is valid");
     let mut buffers = session_memory(model.dims(), SUGGESTIONS);
     let mut session = buffers
         .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
         .expect("buffers sized by the model");
-    let options = SearchOptions::new(SUGGESTIONS);
+    let options = SearchOptions {
+        filter,
+        ..SearchOptions::new(SUGGESTIONS)
+    };
     let mut out = Vec::new();
     let lines = typed
         .split(|&b| b == b'\n')
@@ -219,7 +264,12 @@ fn suggestions_match_the_host_session_bit_for_bit() {
     // One output line per keystroke: every byte of the input but the line feeds.
     let keys = typed.iter().filter(|&&b| b != b'\n').count();
     assert_eq!(run.keystrokes.len(), keys, "one line per keystroke");
-    let host = host_session_replay(&image, &typed);
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let filter = WordFilter {
+        deny: WordList::new(&deny).expect("a word list in the core's format"),
+        lexicon: None,
+    };
+    let host = host_session_replay(&image, &typed, filter);
     for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
         // The design's promise: int8 sums plus libm in a fixed order give the same f32 bits
         // on the host and on the Cortex-M4F.
@@ -239,6 +289,85 @@ fn suggestions_match_the_host_session_bit_for_bit() {
     );
 }
 
+#[test]
+fn no_word_of_the_deny_list_in_flash_is_offered() {
+    let run = firmware_run();
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let list = WordList::new(&deny).expect("a word list in the core's format");
+    for (i, k) in run.keystrokes.iter().enumerate() {
+        for (word, _) in &k.suggestions {
+            assert!(
+                !list.contains(word),
+                "keystroke {i} offers a denied word: {}",
+                show(k)
+            );
+        }
+    }
+    // The check means something only if the search, left alone, offers denied words on this
+    // script: the host session without the list must offer some (and the firmware, with it,
+    // then offers others there).
+    let typed = std::fs::read(typing_path()).expect("typing.txt");
+    let image = std::fs::read(image_path()).expect("the image");
+    let unfiltered = host_session_replay(&image, &typed, WordFilter::default());
+    let denied: Vec<&Keystroke> = unfiltered
+        .iter()
+        .filter(|k| k.suggestions.iter().any(|(w, _)| list.contains(w)))
+        .collect();
+    eprintln!(
+        "{} of {} keystrokes would offer a denied word without the list",
+        denied.len(),
+        unfiltered.len()
+    );
+    assert!(
+        denied.len() >= 3,
+        "the deny list hardly bites on this script: {} keystrokes",
+        denied.len()
+    );
+}
+
+#[test]
+fn a_lexicon_in_flash_limits_the_words_as_on_the_host() {
+    let (typed, run) = lexicon_run();
+    let image = std::fs::read(image_path()).expect("the image");
+    let deny = std::fs::read(deny_list_path()).expect("the deny list");
+    let lexicon_bytes = std::fs::read(lexicon_path()).expect("the lexicon");
+    let lexicon = WordList::new(&lexicon_bytes).expect("a word list in the core's format");
+    let filter = WordFilter {
+        deny: WordList::new(&deny).expect("a word list in the core's format"),
+        lexicon: Some(lexicon),
+    };
+    let host = host_session_replay(&image, typed, filter);
+    assert_eq!(run.keystrokes.len(), host.len(), "one line per keystroke");
+    for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
+        assert_eq!(
+            device,
+            host,
+            "keystroke {i}: firmware {} / host {}",
+            show(device),
+            show(host)
+        );
+        for (word, _) in &device.suggestions {
+            assert!(lexicon.contains(word), "keystroke {i}: {}", show(device));
+        }
+    }
+    // The lexicon changes what is offered: the run without it offers words outside it on
+    // the same lines (the model's half-words such as "helico").
+    let without = &firmware_run().keystrokes[..run.keystrokes.len()];
+    let outside = without
+        .iter()
+        .flat_map(|k| &k.suggestions)
+        .filter(|(w, _)| !lexicon.contains(w))
+        .count();
+    assert!(
+        outside > 0,
+        "no word outside the lexicon offered without it"
+    );
+    assert_eq!(
+        run.figure("word_lists_bytes"),
+        (deny.len() + lexicon_bytes.len()) as u64
+    );
+}
+
 /// The keystrokes whose text can travel as a command-line argument (non-empty UTF-8).
 fn texts(run: &FirmwareRun) -> Vec<(&Keystroke, &str)> {
     run.keystrokes
@@ -253,7 +382,17 @@ fn suggestions_match_the_inkling_command() {
     let run = firmware_run();
     let image = image_path();
     for (k, text) in texts(run) {
-        let json = suggest_json(&image, text, SUGGESTIONS);
+        let json = run_json([
+            "suggest".as_ref(),
+            image.as_os_str(),
+            "--text".as_ref(),
+            text.as_ref(),
+            "--count".as_ref(),
+            SUGGESTIONS.to_string().as_ref(),
+            "--deny".as_ref(),
+            deny_list_path().as_os_str(),
+            "--json".as_ref(),
+        ]);
         let list = json["suggestions"]
             .as_array()
             .unwrap_or_else(|| panic!("inkling suggest: no \"suggestions\" in {json}"));

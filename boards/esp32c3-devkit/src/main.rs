@@ -1,11 +1,11 @@
 //! Word completion on an ESP32-C3 development board (RV32IMC at 160 MHz, no FPU).
 //!
-//! At start-up it types a scenario text and writes each keystroke's suggestions and its
-//! cycles over RTT; then a 4 × 3 keypad (rows on GPIO0, GPIO1, GPIO3, GPIO4, columns on
-//! GPIO5, GPIO6, GPIO7 with pull-ups; GPIO2, 8 and 9 are strapping pins, 18 and 19 the USB)
-//! drives 12-key entry: digits spell the word, `0` takes the first word offered, `*` takes a
-//! key back, `#` starts afresh. `cargo run --release`
-//! flashes it through the built-in USB-JTAG and shows the RTT output.
+//! The program is `inkling_firmware_example::board_typing::run`; this file is the board:
+//! clock, cycle counter, serial port (UART0 on GPIO21 TX and GPIO20 RX, 115 200 baud: the
+//! board's USB-to-UART bridge) and the 4 × 3 keypad's pins (rows GPIO0, GPIO1, GPIO3, GPIO4,
+//! columns GPIO5, GPIO6, GPIO7 with pull-ups; GPIO2, 8 and 9 are strapping pins, 18 and 19
+//! the USB). `cargo run --release` flashes it through the built-in USB-JTAG; a serial
+//! terminal on the bridge's port shows the suggestions and takes typing.
 //!
 //! Cycles: the ESP32-C3 has no `mcycle` CSR; its machine performance counter (`mpcer`
 //! 0x7E0 selects the event, `mpcmr` 0x7E1 enables it, `mpccr` 0x7E2 counts, 32 bits) counts
@@ -14,29 +14,25 @@
 #![no_std]
 #![no_main]
 
-use embedded_hal::delay::DelayNs;
 use esp_hal::clock::CpuClock;
 use esp_hal::delay::Delay;
 use esp_hal::gpio::{Input, InputConfig, Level, Output, OutputConfig, Pull};
-use inkling_core::session::{SearchOptions, StaticSessionBuffers, DEFAULT_HISTORY};
-use inkling_core::Model;
-use inkling_firmware_example::board_typing::{type_text, write_figure, KeyEntry};
-use inkling_firmware_example::keypad::Keypad;
-use inkling_firmware_example::rtt_output::RttOutput;
+use esp_hal::uart::{Config as UartConfig, Uart};
+use inkling_core::session::StaticSessionBuffers;
+use inkling_firmware_example::board_typing;
 
 esp_bootloader_esp_idf::esp_app_desc!();
 
 // SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: from the image (the build script).
 include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
+// WORD_LISTS: the deny list and the lexicon, in flash (the build script).
+include!(concat!(env!("OUT_DIR"), "/word_lists.rs"));
 
 #[repr(C, align(16))]
 struct Aligned<T: ?Sized>(T);
 static IMAGE: &Aligned<[u8]> = &Aligned(*include_bytes!(env!("INKLING_IMAGE_FILE")));
 static BUFFERS: StaticSessionBuffers<SESSION_FLOATS, WORK_LEN, ACT_LEN> =
     StaticSessionBuffers::new();
-
-/// Typed at start-up, for the figures (invented).
-const TYPED: &[u8] = b"base, this is the north hut: all well";
 
 #[panic_handler]
 fn panic(_: &core::panic::PanicInfo) -> ! {
@@ -61,14 +57,11 @@ fn cycle_count() -> u32 {
 
 #[esp_hal::main]
 fn main() -> ! {
-    let channels = rtt_target::rtt_init! { up: { 0: { size: 1024, name: "Terminal" } } };
-    let mut out = RttOutput(channels.up.0);
     // 160 MHz from the PLL; the HAL sets up the flash cache the image is read through.
     let peripherals = esp_hal::init(esp_hal::Config::default().with_cpu_clock(CpuClock::max()));
-    let mut delay = Delay::new();
     start_cycle_counter();
     let (mut high, mut last) = (0u64, 0u32);
-    let mut cycles = move || {
+    let cycles = move || {
         let now = cycle_count();
         if now < last {
             high += 1 << 32;
@@ -77,6 +70,11 @@ fn main() -> ! {
         high + u64::from(now)
     };
 
+    // 115 200 baud, 8 data bits, no parity, 1 stop bit: the HAL's default.
+    let serial = Uart::new(peripherals.UART0, UartConfig::default())
+        .unwrap()
+        .with_rx(peripherals.GPIO20)
+        .with_tx(peripherals.GPIO21);
     let output = || OutputConfig::default();
     let input = || InputConfig::default().with_pull(Pull::Up);
     let rows = [
@@ -90,23 +88,13 @@ fn main() -> ! {
         Input::new(peripherals.GPIO6, input()),
         Input::new(peripherals.GPIO7, input()),
     ];
-    let mut keypad = Keypad::new(rows, columns).unwrap();
-
-    let start = cycles();
-    let model = Model::from_bytes(&IMAGE.0).unwrap();
-    let _ = write_figure(&mut out, "validate_cycles", cycles() - start);
-    let mut session = BUFFERS
-        .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
-        .unwrap();
-    let options = SearchOptions::new(SUGGESTIONS);
-    let _ = type_text(&mut session, &options, TYPED, &mut out, &mut cycles);
-    let _ = session.clear();
-
-    let mut entry = KeyEntry::new();
-    loop {
-        if let Ok(Some(key)) = keypad.scan(&mut delay) {
-            let _ = entry.press(key, &mut session, &options, &mut out, &mut cycles);
-        }
-        delay.delay_ms(5);
-    }
+    board_typing::run::<SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN>(
+        &IMAGE.0,
+        &WORD_LISTS,
+        &BUFFERS,
+        serial,
+        (rows, columns),
+        Delay::new(),
+        cycles,
+    )
 }

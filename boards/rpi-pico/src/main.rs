@@ -1,20 +1,20 @@
 //! Word completion on a Raspberry Pi Pico (RP2040, Cortex-M0+ at 125 MHz, no FPU).
 //!
-//! At start-up it types a scenario text and writes each keystroke's suggestions and its
-//! cycles (SysTick from the core clock: the M0+ has no DWT cycle counter) over RTT; then a
-//! 4 × 3 keypad (rows on GP2–GP5, columns on GP6–GP8 with pull-ups) drives 12-key entry:
-//! digits spell the word, `0` takes the first word offered, `*` takes a key back, `#` starts
-//! afresh. `cargo run --release` with a debug probe flashes it and shows the RTT output.
+//! The program is `inkling_firmware_example::board_typing::run`; this file is the board:
+//! clocks, cycle counter (SysTick from the core clock: the M0+ has no DWT cycle counter),
+//! serial port (UART0 on GP0 TX and GP1 RX, 115 200 baud) and the 4 × 3 keypad's pins (rows
+//! GP2–GP5, columns GP6–GP8 with pull-ups). `cargo run --release` with a debug probe flashes
+//! it; a serial terminal on a USB-serial adapter on GP0/GP1 (the Raspberry Pi Debug Probe has
+//! one) shows the suggestions and takes typing.
 #![no_std]
 #![no_main]
 
-use embedded_hal::delay::DelayNs;
+use hal::fugit::RateExtU32;
 use hal::pac;
-use inkling_core::session::{SearchOptions, StaticSessionBuffers, DEFAULT_HISTORY};
-use inkling_core::Model;
-use inkling_firmware_example::board_typing::{type_text, write_figure, KeyEntry};
-use inkling_firmware_example::keypad::Keypad;
-use inkling_firmware_example::rtt_output::RttOutput;
+use hal::uart::{DataBits, StopBits, UartConfig, UartPeripheral};
+use hal::Clock;
+use inkling_core::session::StaticSessionBuffers;
+use inkling_firmware_example::board_typing;
 use inkling_firmware_example::systick_clock::SysTickClock;
 use rp2040_hal as hal;
 
@@ -28,15 +28,14 @@ const XTAL_HZ: u32 = 12_000_000;
 
 // SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN: from the image (the build script).
 include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
+// WORD_LISTS: the deny list and the lexicon, in flash (the build script).
+include!(concat!(env!("OUT_DIR"), "/word_lists.rs"));
 
 #[repr(C, align(16))]
 struct Aligned<T: ?Sized>(T);
 static IMAGE: &Aligned<[u8]> = &Aligned(*include_bytes!(env!("INKLING_IMAGE_FILE")));
 static BUFFERS: StaticSessionBuffers<SESSION_FLOATS, WORK_LEN, ACT_LEN> =
     StaticSessionBuffers::new();
-
-/// Typed at start-up, for the figures (invented).
-const TYPED: &[u8] = b"base, this is the north hut: all well";
 
 #[panic_handler]
 fn panic(_: &core::panic::PanicInfo) -> ! {
@@ -47,8 +46,6 @@ fn panic(_: &core::panic::PanicInfo) -> ! {
 
 #[hal::entry]
 fn main() -> ! {
-    let channels = rtt_target::rtt_init! { up: { 0: { size: 1024, name: "Terminal" } } };
-    let mut out = RttOutput(channels.up.0);
     let mut pac = pac::Peripherals::take().unwrap();
     let mut watchdog = hal::Watchdog::new(pac.WATCHDOG);
     // 125 MHz from the crystal through the system PLL.
@@ -62,9 +59,8 @@ fn main() -> ! {
         &mut watchdog,
     )
     .unwrap();
-    let mut timer = hal::Timer::new(pac.TIMER, &mut pac.RESETS, &clocks);
+    let timer = hal::Timer::new(pac.TIMER, &mut pac.RESETS, &clocks);
     let clock = SysTickClock::start().unwrap();
-    let mut cycles = || clock.ticks();
 
     let sio = hal::Sio::new(pac.SIO);
     let pins = hal::gpio::Pins::new(
@@ -73,6 +69,16 @@ fn main() -> ! {
         sio.gpio_bank0,
         &mut pac.RESETS,
     );
+    let serial = UartPeripheral::new(
+        pac.UART0,
+        (pins.gpio0.into_function(), pins.gpio1.into_function()),
+        &mut pac.RESETS,
+    )
+    .enable(
+        UartConfig::new(115_200.Hz(), DataBits::Eight, None, StopBits::One),
+        clocks.peripheral_clock.freq(),
+    )
+    .unwrap();
     let rows = [
         pins.gpio2.into_push_pull_output().into_dyn_pin(),
         pins.gpio3.into_push_pull_output().into_dyn_pin(),
@@ -84,23 +90,13 @@ fn main() -> ! {
         pins.gpio7.into_pull_up_input().into_dyn_pin(),
         pins.gpio8.into_pull_up_input().into_dyn_pin(),
     ];
-    let mut keypad = Keypad::new(rows, columns).unwrap();
-
-    let start = cycles();
-    let model = Model::from_bytes(&IMAGE.0).unwrap();
-    let _ = write_figure(&mut out, "validate_cycles", cycles() - start);
-    let mut session = BUFFERS
-        .session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model)
-        .unwrap();
-    let options = SearchOptions::new(SUGGESTIONS);
-    let _ = type_text(&mut session, &options, TYPED, &mut out, &mut cycles);
-    let _ = session.clear();
-
-    let mut entry = KeyEntry::new();
-    loop {
-        if let Ok(Some(key)) = keypad.scan(&mut timer) {
-            let _ = entry.press(key, &mut session, &options, &mut out, &mut cycles);
-        }
-        timer.delay_ms(5);
-    }
+    board_typing::run::<SUGGESTIONS, SESSION_FLOATS, WORK_LEN, ACT_LEN>(
+        &IMAGE.0,
+        &WORD_LISTS,
+        &BUFFERS,
+        serial,
+        (rows, columns),
+        timer,
+        move || clock.ticks(),
+    )
 }

@@ -1,7 +1,8 @@
-//! The program to copy: a model image in flash, a session's buffers in a static, typed
-//! bytes in, the three likeliest words out (one line per keystroke, tab-separated), on any
-//! of the three cores. `cargo run --release --bin minimal` runs it under QEMU; on a board,
-//! replace the host streams with a UART (any `embedded_io::Read` and `Write`).
+//! The program to copy: a model image and its word lists (a deny list, a lexicon if one is
+//! given) in flash, a session's buffers in a static, typed bytes in, the three likeliest
+//! words out (one line per keystroke, tab-separated), on any of the three cores. `cargo run
+//! --release --bin minimal` runs it under QEMU; on a board, replace the host streams with a
+//! UART (any `embedded_io::Read` and `Write`).
 #![no_std]
 #![no_main]
 
@@ -14,6 +15,8 @@ use inkling_firmware_example::device::semihosting_io::{HostInput, HostOutput};
 
 // SUGGESTIONS, SESSION_FLOATS, WORK_LEN and ACT_LEN, from the image's dimensions (build.rs).
 include!(concat!(env!("OUT_DIR"), "/session_sizes.rs"));
+// WORD_LISTS: the deny list and the lexicon, in flash as they are (build.rs checks them).
+include!(concat!(env!("OUT_DIR"), "/word_lists.rs"));
 
 /// The image's payloads are read in place from flash and want 16-byte alignment.
 #[repr(C, align(16))]
@@ -29,13 +32,16 @@ fn main() -> ! {
     let (Ok(mut keys), Ok(mut out)) = (HostInput::open(), HostOutput::stdout()) else {
         exit(ExitCode::Io)
     };
-    let Ok(model) = Model::from_bytes(&IMAGE.0) else {
+    let (Ok(model), Ok(filter)) = (Model::from_bytes(&IMAGE.0), WORD_LISTS.filter()) else {
         exit(ExitCode::BadImage)
     };
     let Ok(mut session) = BUFFERS.session::<_, SUGGESTIONS, DEFAULT_HISTORY>(model) else {
         exit(ExitCode::Internal)
     };
-    let options = SearchOptions::new(SUGGESTIONS);
+    let options = SearchOptions {
+        filter,
+        ..SearchOptions::new(SUGGESTIONS)
+    };
     let mut key = [0u8; 1];
     while let Ok(1) = keys.read(&mut key) {
         let edited = match key[0] {
