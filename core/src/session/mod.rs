@@ -36,6 +36,7 @@
 
 pub mod beam_search;
 mod beam_slots;
+pub mod draft;
 pub mod keypad;
 pub mod log_softmax;
 pub mod memory;

@@ -105,7 +105,7 @@ pub struct Suggestion {
 /// ```
 /// use inkling_core::session::Suggestions;
 /// let none = Suggestions::<3>::default();
-/// assert!(none.list.is_empty() && !none.cut_short && none.steps == 0);
+/// assert!(none.list.is_empty() && !none.cut_short && none.steps == 0 && none.phrase.is_none());
 /// ```
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Suggestions<const K: usize> {
@@ -116,4 +116,8 @@ pub struct Suggestions<const K: usize> {
     pub steps: usize,
     /// Whether the step budget stopped the search.
     pub cut_short: bool,
+    /// A phrase from the user memory that the model verified (see
+    /// [`draft`](super::draft)); it takes the last of the `width` places, so `list` then
+    /// holds at most `width − 1` words. Always `None` without a memory holding phrases.
+    pub phrase: Option<super::draft::Phrase>,
 }

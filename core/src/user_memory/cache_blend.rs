@@ -31,6 +31,7 @@
 //! recently used first among equals). A learned word left unscored when the budget runs out
 //! counts with `P_model = 0`, its smallest possible blend, `λ · P_cache`.
 
+use super::learned_phrases::LearnedPhrase;
 use super::learned_words::{count_in, LearnedWord, UserMemory};
 
 /// The cache weight `λ` to use unless told otherwise. Chosen on training texts only (the
@@ -65,10 +66,27 @@ pub struct CacheBlend<'a> {
     pub words: &'a [LearnedWord],
     /// The cache weight `λ`, between 0 (the model alone) and 1 (the memory alone).
     pub weight: f32,
+    /// The learned phrases a search may draft from (see
+    /// [`draft`](crate::session::draft)); empty gives no phrase suggestion.
+    pub phrases: &'a [LearnedPhrase],
+    /// `k` of the drafts' acceptance rule: a drafted byte is accepted when it is among the
+    /// model's `k` likeliest next bytes (0 accepts none).
+    pub top_k: usize,
 }
 
+/// The `k` of a phrase draft's acceptance rule unless told otherwise (see
+/// [`draft`](crate::session::draft)). Chosen on training texts only (the first 10,000
+/// bytes of the scenario's training messages and of its logbook training text; demo
+/// model, 3 suggestions, a memory starting empty): see the README for the figures.
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K, 4);
+/// ```
+pub const DEFAULT_DRAFT_TOP_K: usize = 4;
+
 impl<'a> CacheBlend<'a> {
-    /// The words of `memory` with cache weight `weight`.
+    /// The words and phrases of `memory` with cache weight `weight` and
+    /// [`DEFAULT_DRAFT_TOP_K`].
     ///
     /// ```
     /// use inkling_core::user_memory::{CacheBlend, UserMemory, DEFAULT_CACHE_WEIGHT};
@@ -76,10 +94,12 @@ impl<'a> CacheBlend<'a> {
     /// let blend = CacheBlend::new(&memory, DEFAULT_CACHE_WEIGHT);
     /// assert!(blend.words.is_empty());
     /// ```
-    pub fn new<const N: usize>(memory: &'a UserMemory<N>, weight: f32) -> Self {
+    pub fn new<const N: usize, const P: usize>(memory: &'a UserMemory<N, P>, weight: f32) -> Self {
         CacheBlend {
             words: memory.words(),
             weight,
+            phrases: memory.phrases(),
+            top_k: DEFAULT_DRAFT_TOP_K,
         }
     }
 

@@ -27,10 +27,12 @@ mod blocking_flash;
 pub mod cache_blend;
 pub mod flash_layout;
 pub mod flash_store;
+pub mod learned_phrases;
 pub mod learned_words;
 pub mod ram_flash;
 
 pub use cache_blend::{CacheBlend, DEFAULT_CACHE_WEIGHT};
 pub use flash_store::{FlashStore, LoadReport};
-pub use learned_words::{Learned, LearnedWord, UserMemory, MIN_LEARNED_LEN};
+pub use learned_phrases::{LearnedPhrase, MAX_PHRASE_LEN};
+pub use learned_words::{Learned, LearnedText, LearnedWord, UserMemory, MIN_LEARNED_LEN};
 pub use ram_flash::{RamFlash, RamFlashError};

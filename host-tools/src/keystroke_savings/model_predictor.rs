@@ -7,16 +7,22 @@ use inkling_core::Error;
 
 use super::simulation::Predictor;
 
-/// Words the simulated device's user memory holds: 256 words take
-/// `UserMemory::<256>::RAM_BYTES` (about 10 KB) of the device's RAM.
+/// Words the simulated device's user memory holds: 256 words take about 10 KB of the
+/// device's RAM.
 pub const MEMORY_WORDS: usize = 256;
+
+/// Phrases the simulated device's user memory holds: 128 phrases take about 7 KB more.
+pub const MEMORY_PHRASES: usize = 128;
+
+/// The user memory of the host tools: [`MEMORY_WORDS`] words and [`MEMORY_PHRASES`] phrases.
+pub type HostMemory = UserMemory<MEMORY_WORDS, MEMORY_PHRASES>;
 
 /// A user memory that learns each word when the boundary after it is typed, blended into
 /// the suggestions with cache weight `weight`.
 #[derive(Debug)]
 pub struct Learning {
     /// The words learned so far.
-    pub memory: Box<UserMemory<MEMORY_WORDS>>,
+    pub memory: Box<HostMemory>,
     /// The cache weight `λ`.
     pub weight: f32,
 }
@@ -76,6 +82,8 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
         if let Some(learning) = &mut self.learning {
             if is_boundary(byte) {
                 learning.memory.learn(self.session.word(), &WordList::EMPTY);
+                let typed: Vec<u8> = self.session.history().iter().collect();
+                learning.memory.learn_phrase(&typed, &WordList::EMPTY);
             }
         }
         match self.session.push(byte) {
@@ -95,6 +103,8 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
         };
         let found = self.session.suggest(&options)?;
         self.search_steps += found.steps;
-        Ok(found.list.iter().map(|s| s.text.to_vec()).collect())
+        // The phrase takes the last place (the search left it free).
+        let phrase = found.phrase.iter().map(|p| p.text.to_vec());
+        Ok(found.list.iter().map(|s| s.text.to_vec()).chain(phrase).collect())
     }
 }
