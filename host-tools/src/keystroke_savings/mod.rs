@@ -42,6 +42,8 @@ pub mod simulation;
 pub use comparison::{compare, Comparison, LearningRun};
 pub use frequency_baseline::FrequencyBaseline;
 pub use keypad_entry::{keypad_entry, KeypadCount};
-pub use model_predictor::{HostMemory, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS};
+pub use model_predictor::{
+    HostMemory, LearnOptions, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS,
+};
 pub use session_memory::{session_memory, SessionMemory};
 pub use simulation::{simulate, simulate_with, KeyCount, Offer, Predictor};
