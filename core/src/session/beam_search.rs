@@ -411,8 +411,8 @@ impl<const K: usize> Search<K> {
                 learned.logprob = logit.map_or(f32::NEG_INFINITY, |l| norm.log_prob(l));
             }
         }
-        self.running = !self.out.cut_short
-            && (self.learned.iter().any(|l| !l.scored) || self.draft.is_some());
+        self.running =
+            !self.out.cut_short && (self.learned.iter().any(|l| !l.scored) || self.draft.is_some());
     }
 
     /// Scores the learned words left, one engine step per byte of their rest, in the first

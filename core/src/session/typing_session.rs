@@ -503,10 +503,16 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     /// The last bytes of the history before the current word (at most `out.len()`), in
     /// `out`: the context of a phrase draft.
     fn text_before_word<'o>(&self, out: &'o mut [u8]) -> &'o [u8] {
-        let end = self.history.len().saturating_sub(self.word.as_bytes().len());
+        let end = self
+            .history
+            .len()
+            .saturating_sub(self.word.as_bytes().len());
         let start = end.saturating_sub(out.len());
         let mut n = 0;
-        for (o, b) in out.iter_mut().zip(self.history.iter().skip(start).take(end - start)) {
+        for (o, b) in out
+            .iter_mut()
+            .zip(self.history.iter().skip(start).take(end - start))
+        {
             *o = b;
             n += 1;
         }

@@ -233,7 +233,10 @@ mod tests {
             last_used: u32::MAX,
         };
         let n = postcard::to_slice(&longest, &mut buf).unwrap().len();
-        assert_eq!(2 + n, MAX_DATA_BYTES - (super::super::MAX_PHRASE_LEN - crate::session::MAX_WORD_LEN));
+        assert_eq!(
+            2 + n,
+            MAX_DATA_BYTES - (super::super::MAX_PHRASE_LEN - crate::session::MAX_WORD_LEN)
+        );
         let phrase = Record::Phrase {
             generation: 1,
             text: b"a b",

@@ -221,7 +221,12 @@ impl<S: NorFlash> FlashStore<S> {
             .words
             .iter()
             .map(|w| w.last_used().saturating_add(1))
-            .chain(memory.phrases.iter().map(|p| p.last_used().saturating_add(1)))
+            .chain(
+                memory
+                    .phrases
+                    .iter()
+                    .map(|p| p.last_used().saturating_add(1)),
+            )
             .max()
             .unwrap_or(0);
         Ok(LoadReport {
@@ -413,7 +418,9 @@ fn place<const L: usize, const C: usize>(
 
 /// Closes the gaps left by slots no record filled (and drops a text already read); a text
 /// that moves to another slot is written there by the next save. Returns the texts dropped.
-fn close_gaps<const L: usize, const C: usize>(slots: &mut heapless::Vec<LearnedText<L>, C>) -> usize {
+fn close_gaps<const L: usize, const C: usize>(
+    slots: &mut heapless::Vec<LearnedText<L>, C>,
+) -> usize {
     let mut kept = 0usize;
     let mut dropped = 0usize;
     for read in 0..slots.len() {

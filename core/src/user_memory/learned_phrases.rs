@@ -149,7 +149,10 @@ mod tests {
             phrase_ending(long, &none),
             Ok(&b"bbbbbbbbbbbbbbbbbbbbbb cc"[..])
         );
-        assert_eq!(phrase_ending(b"end.\nnew line", &none), Ok(&b"new line"[..]));
+        assert_eq!(
+            phrase_ending(b"end.\nnew line", &none),
+            Ok(&b"new line"[..])
+        );
         assert_eq!(phrase_ending(b"one,", &none), Err(Learned::NotAWord));
         assert_eq!(phrase_ending(b"\xc3 x", &none), Err(Learned::NotAWord));
     }

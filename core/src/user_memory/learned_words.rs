@@ -29,7 +29,7 @@ pub type LearnedWord = LearnedText<MAX_WORD_LEN>;
 
 /// A text the memory keeps, of at most `L` bytes, with how often it was learned and when
 /// last: a word ([`LearnedWord`]) or a phrase
-/// ([`LearnedPhrase`](crate::user_memory::LearnedPhrase)).
+/// ([`LearnedPhrase`]).
 ///
 /// ```
 /// use inkling_core::user_memory::UserMemory;
@@ -510,11 +510,20 @@ mod tests {
     fn the_ram_formula_is_the_size_of_the_type() {
         // The compiler's layout (core::mem::size_of) is the reference.
         assert_eq!(ram_bytes_for(0, 0), core::mem::size_of::<UserMemory<0>>());
-        assert_eq!(ram_bytes_for(3, 5), core::mem::size_of::<UserMemory<3, 5>>());
-        assert_eq!(ram_bytes_for(0, 64), core::mem::size_of::<UserMemory<0, 64>>());
+        assert_eq!(
+            ram_bytes_for(3, 5),
+            core::mem::size_of::<UserMemory<3, 5>>()
+        );
+        assert_eq!(
+            ram_bytes_for(0, 64),
+            core::mem::size_of::<UserMemory<0, 64>>()
+        );
         assert_eq!(ram_bytes_for(1, 0), core::mem::size_of::<UserMemory<1>>());
         assert_eq!(ram_bytes_for(7, 0), core::mem::size_of::<UserMemory<7>>());
-        assert_eq!(ram_bytes_for(128, 0), core::mem::size_of::<UserMemory<128>>());
+        assert_eq!(
+            ram_bytes_for(128, 0),
+            core::mem::size_of::<UserMemory<128>>()
+        );
         assert_eq!(
             ram_bytes_for(1000, 0),
             core::mem::size_of::<UserMemory<1000>>()

@@ -5,10 +5,10 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use inkling_core::engine::recurrence::{prefill, prefill_checked, step};
-use inkling_core::session::draft::in_top_k;
-use inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K;
 use inkling_core::engine::weights::Weights;
+use inkling_core::session::draft::in_top_k;
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K;
 use inkling_core::Scratch;
 
 use super::suggest::MAX_COUNT;
@@ -142,7 +142,8 @@ fn verify_microseconds(weights: &dyn Weights, n: usize, chunk: usize, chunked: b
             let start = Instant::now();
             if chunked {
                 if let Ok(mut scratch) = Scratch::new(&d, &mut work, &mut act) {
-                    let _ = prefill_checked(weights, &mut state[..], &mut scratch, &text[..n], check);
+                    let _ =
+                        prefill_checked(weights, &mut state[..], &mut scratch, &text[..n], check);
                 }
             } else if let Ok(mut scratch) =
                 Scratch::new(&d, &mut work[..d.work_len()], &mut act[..d.act_len()])

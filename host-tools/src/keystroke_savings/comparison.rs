@@ -6,7 +6,9 @@ use inkling_core::Error;
 use crate::commands::suggest::MAX_COUNT;
 
 use super::frequency_baseline::FrequencyBaseline;
-use super::model_predictor::{LearnOptions, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS};
+use super::model_predictor::{
+    LearnOptions, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS,
+};
 use super::session_memory::session_memory;
 use super::simulation::{simulate, simulate_with, KeyCount};
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};

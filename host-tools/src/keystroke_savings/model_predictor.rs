@@ -84,7 +84,9 @@ impl<'b, W: Weights, const K: usize> ModelPredictor<'b, W, K> {
 
     /// Phrases in the memory (0 without learning).
     pub fn learned_phrases(&self) -> usize {
-        self.learning.as_ref().map_or(0, |l| l.memory.phrases().len())
+        self.learning
+            .as_ref()
+            .map_or(0, |l| l.memory.phrases().len())
     }
 
     /// Words in the memory (0 without learning).
@@ -124,6 +126,11 @@ impl<W: Weights, const K: usize> Predictor for ModelPredictor<'_, W, K> {
         self.phrases_offered += usize::from(found.phrase.is_some());
         // The phrase takes the last place (the search left it free).
         let phrase = found.phrase.iter().map(|p| p.text.to_vec());
-        Ok(found.list.iter().map(|s| s.text.to_vec()).chain(phrase).collect())
+        Ok(found
+            .list
+            .iter()
+            .map(|s| s.text.to_vec())
+            .chain(phrase)
+            .collect())
     }
 }

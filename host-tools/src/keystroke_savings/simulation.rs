@@ -133,7 +133,9 @@ pub fn simulate_with<P: Predictor>(
             if text.get(at + took) == Some(&b' ') {
                 keys.taken_before_space += 1;
             }
-            offered[typed..].iter().try_for_each(|&b| predictor.push(b))?;
+            offered[typed..]
+                .iter()
+                .try_for_each(|&b| predictor.push(b))?;
             at += took;
         } else {
             keys.keys += len;
@@ -234,7 +236,13 @@ mod tests {
         ];
         let keys = simulate(b"go up the hill.", 3, &mut Fixed(offers)).unwrap();
         assert_eq!(
-            (keys.bytes, keys.keys, keys.words, keys.taken, keys.phrases_taken),
+            (
+                keys.bytes,
+                keys.keys,
+                keys.words,
+                keys.taken,
+                keys.phrases_taken
+            ),
             (15, 2, 4, 1, 1)
         );
     }
