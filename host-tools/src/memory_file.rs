@@ -7,14 +7,14 @@ use inkling_core::user_memory::flash_layout::flash_bytes_needed;
 use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
 
 use crate::error::HostError;
-use crate::keystroke_savings::{HostMemory, MEMORY_PHRASES, MEMORY_WORDS};
+use crate::keystroke_savings::MEMORY_WORDS;
 
 /// The flash page (erase sector) of the file's layout: 4 KB, the sector of common SPI NOR
 /// parts, with 4-byte writes ([`RamFlash`]).
 pub const SECTOR: usize = 4096;
 
 /// Bytes of the file: [`flash_bytes_needed`] for [`MEMORY_WORDS`] words in [`SECTOR`]s.
-pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, MEMORY_PHRASES, SECTOR, 4);
+pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, 0, SECTOR, 4);
 
 /// A memory file: its path and its bytes (all erased for a file that does not exist yet).
 #[derive(Debug)]
@@ -25,7 +25,7 @@ pub struct MemoryFile {
 
 impl MemoryFile {
     /// Opens `path` (a missing file is an empty memory) and reads the memory in it.
-    pub fn open(path: &Path) -> Result<(Self, Box<HostMemory>), HostError> {
+    pub fn open(path: &Path) -> Result<(Self, Box<UserMemory<MEMORY_WORDS>>), HostError> {
         let bytes = match std::fs::read(path) {
             Ok(bytes) => bytes,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => vec![0xFF; FILE_BYTES],
@@ -50,11 +50,11 @@ impl MemoryFile {
 
     /// Writes what changed in `memory` (loaded from this file) to the flash bytes and the
     /// bytes to the file.
-    pub fn save(&mut self, memory: &mut HostMemory) -> Result<(), HostError> {
+    pub fn save(&mut self, memory: &mut UserMemory<MEMORY_WORDS>) -> Result<(), HostError> {
         self.with_store(|store| {
             // Loading ties the store to the memory in the file; the words of `memory` not
             // yet saved are then written over it.
-            store.load(&mut HostMemory::new())?;
+            store.load(&mut UserMemory::<MEMORY_WORDS>::new())?;
             store.save(memory).map(|_| ())
         })?;
         std::fs::write(&self.path, &self.bytes).map_err(HostError::io(&self.path))

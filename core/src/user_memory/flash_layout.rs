@@ -127,6 +127,14 @@ pub const MAX_STORED_PHRASES: usize = (HEADER_KEY - PHRASE_KEY_BASE) as usize;
 /// ```
 pub const MAX_DATA_BYTES: usize = 2 + 1 + 5 + 1 + super::MAX_PHRASE_LEN + 3 + 5;
 
+/// The longest data of a word item: a 2-byte key and a word record (variant 1 byte,
+/// generation 5, text 1 + 32, count 3, time 5).
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_WORD_DATA_BYTES, 49);
+/// ```
+pub const MAX_WORD_DATA_BYTES: usize = 2 + 1 + 5 + 1 + crate::session::MAX_WORD_LEN + 3 + 5;
+
 /// The most flash bytes one item takes with a write size of `word` bytes: the 8-byte header
 /// and the data, each padded to whole words.
 ///
@@ -136,24 +144,35 @@ pub const MAX_DATA_BYTES: usize = 2 + 1 + 5 + 1 + super::MAX_PHRASE_LEN + 3 + 5;
 /// assert_eq!(max_item_bytes(1), 8 + 65);
 /// ```
 pub const fn max_item_bytes(word: usize) -> usize {
+    item_bytes(MAX_DATA_BYTES, word)
+}
+
+/// Flash bytes of an item of `data` bytes of data with a write size of `word` bytes.
+const fn item_bytes(data: usize, word: usize) -> usize {
     let word = if word == 0 { 1 } else { word };
-    8usize.div_ceil(word) * word + MAX_DATA_BYTES.div_ceil(word) * word
+    8usize.div_ceil(word) * word + data.div_ceil(word) * word
 }
 
 /// Flash bytes a memory of `words` words and `phrases` phrases needs in pages of `page`
 /// bytes with a write size of `word` bytes: room for every slot's record and the header at
-/// the largest item, in pages less their two marker words, plus two spare pages for the
-/// store to move items into before it erases one (our margin; common practice, no source).
-/// 0 if a page cannot hold one item.
+/// the largest item (a word item's without phrases, a phrase item's with them), in pages
+/// less their two marker words, plus two spare pages for the store to move items into
+/// before it erases one (our margin; common practice, no source). 0 if a page cannot hold
+/// one item.
 ///
 /// ```
 /// use inkling_core::user_memory::flash_layout::flash_bytes_needed;
-/// // 256 words in 4 KB sectors with 4-byte writes: 257 items of at most 76 bytes, 53 to a page.
-/// assert_eq!(flash_bytes_needed(256, 0, 4096, 4), (5 + 2) * 4096);
+/// // 256 words in 4 KB sectors with 4-byte writes: 257 items of at most 60 bytes, 68 to a
+/// // page; with 128 phrases, 385 items of at most 76 bytes, 53 to a page.
+/// assert_eq!(flash_bytes_needed(256, 0, 4096, 4), (4 + 2) * 4096);
 /// assert_eq!(flash_bytes_needed(256, 128, 4096, 4), (8 + 2) * 4096);
 /// ```
 pub const fn flash_bytes_needed(words: usize, phrases: usize, page: usize, word: usize) -> usize {
-    let item = max_item_bytes(word);
+    let item = if phrases == 0 {
+        item_bytes(MAX_WORD_DATA_BYTES, word)
+    } else {
+        max_item_bytes(word)
+    };
     let usable = page.saturating_sub(2 * word);
     if usable < item {
         return 0;
@@ -233,10 +252,7 @@ mod tests {
             last_used: u32::MAX,
         };
         let n = postcard::to_slice(&longest, &mut buf).unwrap().len();
-        assert_eq!(
-            2 + n,
-            MAX_DATA_BYTES - (super::super::MAX_PHRASE_LEN - crate::session::MAX_WORD_LEN)
-        );
+        assert_eq!(2 + n, MAX_WORD_DATA_BYTES);
         let phrase = Record::Phrase {
             generation: 1,
             text: b"a b",

@@ -5,14 +5,19 @@
 //!   typed, in a fixed capacity the firmware chooses; the least recently used word makes
 //!   room for a new one. Words of a deny list are never stored; [`UserMemory::clear`]
 //!   forgets everything.
+//! - With `P` phrase slots (`UserMemory<N, P>`) it also keeps the user's phrases, the last
+//!   few words of a sentence each (see [`learned_phrases`]); a search offers the rest of a
+//!   phrase whose start is typed once the model has verified it (see
+//!   [`draft`](crate::session::draft)).
 //! - [`CacheBlend`] lets a search blend the model's word probability with the memory's, as
-//!   a cache model (see [`cache_blend`] for the interpolation); give it in
-//!   [`SearchOptions::memory`](crate::session::SearchOptions::memory).
+//!   a cache model (see [`cache_blend`] for the interpolation), and draft from its phrases;
+//!   give it in [`SearchOptions::memory`](crate::session::SearchOptions::memory).
 //! - [`FlashStore`] keeps it in NOR flash through `embedded-storage`'s `NorFlash`, safe
 //!   against power cuts (layout: [`flash_layout`]); [`RamFlash`] is a NOR flash in RAM.
 //!
-//! **Privacy.** The memory holds what the user typed, names and places among it, in RAM and
-//! (when saved) in flash. Clear it when the device changes hands.
+//! **Privacy.** The memory holds what the user typed, names and places among it, and with
+//! phrases whole stretches of their sentences, in RAM and (when saved) in flash. Clear it
+//! when the device changes hands.
 //!
 //! ```
 //! use inkling_core::session::WordList;

@@ -36,7 +36,7 @@ use inkling_core::user_memory::{CacheBlend, UserMemory, DEFAULT_CACHE_WEIGHT};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::{session_memory, HostMemory};
+use crate::keystroke_savings::{session_memory, MEMORY_WORDS};
 use crate::memory_file::MemoryFile;
 use crate::model_file::ModelFile;
 
@@ -126,7 +126,7 @@ struct Screen<'b, W: Weights> {
     keys: usize,
     note: String,
     /// The words learned this session (and read from the memory file).
-    learned: Box<HostMemory>,
+    learned: Box<UserMemory<MEMORY_WORDS>>,
     /// Where the memory is kept, if anywhere.
     file: Option<MemoryFile>,
 }
@@ -136,7 +136,7 @@ impl<'b, W: Weights> Screen<'b, W> {
     fn new(
         session: Session<'b, W, MAX_COUNT>,
         options: SearchOptions<'static>,
-        learned: Box<HostMemory>,
+        learned: Box<UserMemory<MEMORY_WORDS>>,
         file: Option<MemoryFile>,
     ) -> Self {
         Screen {
