@@ -32,7 +32,7 @@ use inkling_core::session::{
 use inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K;
 use inkling_core::user_memory::flash_layout::flash_bytes_needed;
 use inkling_core::user_memory::{
-    CacheBlend, FlashStore, RamFlash, UserMemory, DEFAULT_CACHE_WEIGHT,
+    CacheBlend, FlashStore, LearnedText, RamFlash, UserMemory, DEFAULT_CACHE_WEIGHT,
 };
 use inkling_core::{Model, Scratch};
 use inkling_firmware_example::device::exit::{exit, ExitCode};
@@ -229,20 +229,22 @@ fn main() -> ! {
     log.figure("memory_load_instructions", since(start));
     log.figure("memory_words_restored", rebooted.len() as u64);
     log.figure("memory_phrases_restored", rebooted.phrases().len() as u64);
-    let same = rebooted.len() == saved.len()
-        && rebooted.phrases().len() == saved.phrases().len()
-        && rebooted.words().iter().zip(saved.words()).all(|(a, b)| {
-            a.text() == b.text() && a.count() == b.count() && a.last_used() == b.last_used()
-        })
-        && rebooted.phrases().iter().zip(saved.phrases()).all(|(a, b)| {
-            a.text() == b.text() && a.count() == b.count() && a.last_used() == b.last_used()
-        });
+    let same = same_texts(rebooted.words(), saved.words())
+        && same_texts(rebooted.phrases(), saved.phrases());
     if !same {
         log.note("the memory read back after the reboot differs from the one saved");
         exit(ExitCode::Internal)
     }
     log.note("the memory survived the reboot");
     exit(ExitCode::Success)
+}
+
+/// Whether two lists of learned texts hold the same texts, counts and times in order.
+fn same_texts<const L: usize>(a: &[LearnedText<L>], b: &[LearnedText<L>]) -> bool {
+    a.len() == b.len()
+        && a.iter().zip(b).all(|(a, b)| {
+            a.text() == b.text() && a.count() == b.count() && a.last_used() == b.last_used()
+        })
 }
 
 /// The cost of verifying [`DRAFT`] after a state: one chunked prefill handing over the
@@ -262,7 +264,10 @@ fn draft_costs(
 ) {
     let since = |start: u64| (clock.ticks() - start) * per_tick;
     let dims = *model.dims();
-    let state = buffers.floats.get_mut(..dims.state_len()).unwrap_or(&mut []);
+    let state = buffers
+        .floats
+        .get_mut(..dims.state_len())
+        .unwrap_or(&mut []);
     let bytes = DRAFT.get(..DRAFT.len() - 1).unwrap_or(&[]);
     let mut chunked = match Scratch::new(&dims, &mut buffers.work, &mut buffers.act) {
         Ok(scratch) => scratch,
@@ -307,6 +312,12 @@ fn draft_costs(
     let stepped_cost = since(start);
     let n = bytes.len().max(1) as u64;
     log.figure("draft_bytes_in_top_k_both_ways", accepted as u64);
-    log.figure("draft_verify_chunked_instructions_per_byte", chunked_cost / n);
-    log.figure("draft_verify_stepped_instructions_per_byte", stepped_cost / n);
+    log.figure(
+        "draft_verify_chunked_instructions_per_byte",
+        chunked_cost / n,
+    );
+    log.figure(
+        "draft_verify_stepped_instructions_per_byte",
+        stepped_cost / n,
+    );
 }
