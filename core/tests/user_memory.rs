@@ -283,3 +283,30 @@ fn the_draft_is_accepted_up_to_its_first_byte_outside_the_top_k() {
     // The rule was exercised where it matters: some k stops the draft inside the phrase.
     assert!(cut_inside > 0, "ranks {ranks:?}");
 }
+
+#[test]
+fn a_learned_name_is_offered_for_its_keys() {
+    // ITU-T E.161 letters: Z 9, o 6, r 7, v 8, a 2, t 8, h 4. A name unknown to the model,
+    // typed twice, is among the words offered for its seven keys with the memory, and a
+    // learned word of other keys ("Zorvan") is not.
+    use inkling_core::session::KeyMap;
+    let mut memory = UserMemory::<16>::new();
+    memory.learn_text(b"Zorvath Zorvan Zorvath", &WordList::EMPTY);
+    let options = SearchOptions {
+        memory: Some(CacheBlend::new(&memory, 0.3)),
+        ..SearchOptions::new(3)
+    };
+    let keys = b"9678284";
+    let with = with_session(b"call ", |s| s.keys(keys, &KeyMap::E161, &options).unwrap());
+    assert!(
+        with.list.iter().any(|x| x.text.as_slice() == b"Zorvath"),
+        "{:?}",
+        with.list
+    );
+    assert!(with.list.iter().all(|x| x.text.as_slice() != b"Zorvan"));
+    assert!(with.phrase.is_none());
+    let plain = with_session(b"call ", |s| {
+        s.keys(keys, &KeyMap::E161, &SearchOptions::new(3)).unwrap()
+    });
+    assert!(plain.list.iter().all(|x| x.text.as_slice() != b"Zorvath"));
+}

@@ -35,7 +35,8 @@
 //! copy is made before any step of the round, since a step overwrites its slot.
 //!
 //! With a user memory ([`SearchOptions::memory`]), the learned words that start with the
-//! word typed are blended in as a cache model once the rounds end; those the search did
+//! word typed (on 12-key entry, those whose rest fits the keys, which are then the whole
+//! cache) are blended in as a cache model once the rounds end; those the search did
 //! not finish are scored by stepping their remaining bytes in the first beam slot, within
 //! the same step budget (see [`cache_blend`](crate::user_memory::cache_blend)).
 
@@ -92,6 +93,20 @@ impl Shape<'_> {
             Shape::Free => started > 0,
             Shape::Keys { keys, .. } => started == keys.len(),
         }
+    }
+
+    /// Whether a whole completion `rest` (the bytes after the word typed) has this shape.
+    fn fits(&self, rest: &[u8]) -> bool {
+        let mut started = 0usize;
+        for &b in rest {
+            if !self.allows(started, b) {
+                return false;
+            }
+            if !is_continuation(b) {
+                started += 1;
+            }
+        }
+        self.may_end(started)
     }
 }
 
@@ -181,6 +196,7 @@ impl<const K: usize> Search<K> {
         word: &[u8],
         before: &[u8],
         root_slot: usize,
+        shape: Shape<'_>,
         options: &SearchOptions<'_>,
     ) -> Result<Self, Error> {
         if options.width > K {
@@ -200,10 +216,24 @@ impl<const K: usize> Search<K> {
             ..Search::default()
         };
         if let Some(blend) = &options.memory {
-            search.cache_total = blend.prefix_total(word);
-            search.learned = learned_candidates(blend, word, options);
-            if search.running {
-                search.draft = choose_draft(blend.phrases, before, word);
+            search.learned = learned_candidates(blend, word, shape, options);
+            match shape {
+                Shape::Free => {
+                    search.cache_total = blend.prefix_total(word);
+                    if search.running {
+                        search.draft = choose_draft(blend.phrases, before, word);
+                    }
+                }
+                // On 12-key entry the cache is the learned words that fit the keys, and no
+                // phrase is drafted.
+                Shape::Keys { .. } => {
+                    search.cache_total = blend
+                        .words
+                        .iter()
+                        .filter(|w| fits_after(w.text(), word, shape))
+                        .map(|w| u32::from(w.count()))
+                        .sum();
+                }
             }
         }
         let _ = search.pending.push(Beam {
@@ -632,19 +662,27 @@ impl<const K: usize> Search<K> {
     }
 }
 
+/// Whether `text` is `word` followed by a completion of `shape` (at least one byte).
+fn fits_after(text: &[u8], word: &[u8], shape: Shape<'_>) -> bool {
+    text.len() > word.len()
+        && text.starts_with(word)
+        && (matches!(shape, Shape::Free) || shape.fits(text.get(word.len()..).unwrap_or(&[])))
+}
+
 /// The learned words a search offers after `word`: those that start with it, add at least
-/// one byte and pass the filter, the `options.width` most frequent (the most recently used
-/// first among equals), model scores unknown.
+/// one byte of the `shape` and pass the filter, the `options.width` most frequent (the most
+/// recently used first among equals), model scores unknown.
 fn learned_candidates<const K: usize>(
     blend: &CacheBlend<'_>,
     word: &[u8],
+    shape: Shape<'_>,
     options: &SearchOptions<'_>,
 ) -> heapless::Vec<LearnedCandidate, K> {
     let mut chosen: heapless::Vec<LearnedCandidate, K> = heapless::Vec::new();
     let rank = |c: &LearnedCandidate| (c.count, c.last_used);
     for w in blend.words {
         let text = w.text();
-        if text.len() <= word.len() || !text.starts_with(word) || !options.filter.offers(text) {
+        if !fits_after(text, word, shape) || !options.filter.offers(text) {
             continue;
         }
         let Ok(text) = Word::from_slice(text) else {

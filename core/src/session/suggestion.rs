@@ -50,9 +50,9 @@ pub struct SearchOptions<'a> {
     pub filter: WordFilter<'a>,
     /// The user memory to blend with the model as a cache model (see
     /// [`cache_blend`](crate::user_memory::cache_blend)); `None` gives the model's
-    /// suggestions alone, exactly as before there was a memory. Only
-    /// [`Session::suggest`](super::Session::suggest) and its parts use it; 12-key entry
-    /// ([`Session::keys`](super::Session::keys)) does not.
+    /// suggestions alone, exactly as before there was a memory. 12-key entry
+    /// ([`Session::keys`](super::Session::keys)) blends in the learned words that fit the
+    /// keys (its cache is those words) and offers no phrases.
     pub memory: Option<CacheBlend<'a>>,
 }
 

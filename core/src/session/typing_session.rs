@@ -374,7 +374,7 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
     ) -> Result<Suggestions<K>, Error> {
         let mut before = [0u8; MAX_PHRASE_LEN];
         let before = self.text_before_word(&mut before);
-        self.search = Search::start(self.word.as_bytes(), before, LIVE, options)?;
+        self.search = Search::start(self.word.as_bytes(), before, LIVE, Shape::Free, options)?;
         self.refine(options, steps)
     }
 
@@ -474,17 +474,12 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 capacity: MAX_WORD_LEN,
             });
         }
-        // 12-key entry does not blend in the user memory.
-        let options = &SearchOptions {
-            memory: None,
-            ..*options
-        };
-        let mut search = Search::<K>::start(self.word.as_bytes(), &[], LIVE, options)?;
+        let shape = Shape::Keys { map, keys };
+        let mut search = Search::<K>::start(self.word.as_bytes(), &[], LIVE, shape, options)?;
         let root = Root {
             logits: self.live_logits,
             word: self.word.as_bytes(),
         };
-        let shape = Shape::Keys { map, keys };
         let run = search.run(
             &self.weights,
             &mut self.scratch,

@@ -18,6 +18,10 @@
 //! - `λ` is [`CacheBlend::weight`]; both distributions are conditioned on the same typed
 //!   part, so their blend is one too, and no probability of `p` itself is needed.
 //!
+//! On 12-key entry the cache is the learned words whose rest after `p` fits the keys
+//! pressed (one letter of each key in turn, then the end of the word), and `Σ c(v)` runs
+//! over them.
+//!
 //! When no learned word starts with `p` the cache distribution is undefined and the model
 //! alone is used: the suggestions are exactly those of a search without the memory. The
 //! search reports `ln P(w | h, p)` as the suggestion's `logprob` and ranks by it.
