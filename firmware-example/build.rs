@@ -27,6 +27,11 @@ const SUGGESTIONS: usize = 3;
 /// the passes (`Dims::act_len()` i16 per byte, 256 B per byte for the demo model).
 const PREFILL_CHUNK: usize = 4;
 
+/// Bytes one pass of a phrase draft's verification takes in `memory_reboot` (passed on to
+/// it as `draft_sizes.rs`): its session's scratch is sized for passes of this many bytes,
+/// about 3 KB of work space a byte for the demo model.
+const DRAFT_CHUNK: usize = 8;
+
 fn main() {
     // The library alone, built for a board profile (its `qemu` feature off), needs neither
     // an image nor a memory layout: the profile's own run of this script gives them.
@@ -123,8 +128,8 @@ fn write_word_lists(manifest: &Path, out: &Path) {
 
 /// Validates the image now (a bad one fails the build, not the device) and writes the
 /// sizes of the buffers it needs, so RAM is exactly what this model takes: a session's
-/// (`session_sizes.rs`, every program) and the prefill passes' the harness measures
-/// (`harness_sizes.rs`).
+/// (`session_sizes.rs`, every program), the prefill passes' the harness measures
+/// (`harness_sizes.rs`) and the phrase drafts' passes of `memory_reboot` (`draft_sizes.rs`).
 fn write_buffer_sizes(image: &Path, out: &Path) {
     let bytes = fs::read(image).unwrap_or_else(|e| panic!("reading {}: {e}", image.display()));
     let model = inkling_core::Model::from_bytes(&bytes)
@@ -152,7 +157,21 @@ fn write_buffer_sizes(image: &Path, out: &Path) {
         dims.chunk_work_len(PREFILL_CHUNK),
         dims.chunk_act_len(PREFILL_CHUNK),
     );
-    for (name, text) in [("session_sizes.rs", session), ("harness_sizes.rs", harness)] {
+    let draft = format!(
+        "/// Bytes a pass of a phrase draft's verification takes.\n\
+         const DRAFT_CHUNK: usize = {DRAFT_CHUNK};\n\
+         /// f32 elements of engine work space for passes of {DRAFT_CHUNK} bytes.\n\
+         const DRAFT_WORK_LEN: usize = {};\n\
+         /// i16 elements of activation scratch for passes of {DRAFT_CHUNK} bytes.\n\
+         const DRAFT_ACT_LEN: usize = {};\n",
+        dims.chunk_work_len(DRAFT_CHUNK),
+        dims.chunk_act_len(DRAFT_CHUNK),
+    );
+    for (name, text) in [
+        ("session_sizes.rs", session),
+        ("harness_sizes.rs", harness),
+        ("draft_sizes.rs", draft),
+    ] {
         let path = out.join(name);
         fs::write(&path, text).unwrap_or_else(|e| panic!("writing {}: {e}", path.display()));
     }

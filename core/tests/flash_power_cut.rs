@@ -19,6 +19,7 @@ use inkling_core::user_memory::{FlashStore, UserMemory};
 const PAGE: usize = 256;
 const WORD: usize = 4;
 const WORDS: usize = 8;
+const PHRASES: usize = 4;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct PowerCut;
@@ -128,20 +129,29 @@ impl NorFlash for CutFlash {
     }
 }
 
+type Memory = UserMemory<WORDS, PHRASES>;
 type Snapshot = Vec<(Vec<u8>, u16, u32)>;
 
-fn snapshot(memory: &UserMemory<WORDS>) -> Snapshot {
-    memory
+/// The words, then an empty entry, then the phrases.
+fn snapshot(memory: &Memory) -> Snapshot {
+    let entry = |t: &[u8], c, l| (t.to_vec(), c, l);
+    let words = memory
         .words()
         .iter()
-        .map(|w| (w.text().to_vec(), w.count(), w.last_used()))
-        .collect()
+        .map(|w| entry(w.text(), w.count(), w.last_used()));
+    let phrases = memory
+        .phrases()
+        .iter()
+        .map(|p| entry(p.text(), p.count(), p.last_used()));
+    words.chain([(Vec::new(), 0, 0)]).chain(phrases).collect()
 }
 
-/// One step of the scenario: a word learned and saved (one record), or a clear.
+/// One step of the scenario: a word learned and saved (one record), the phrase that ends
+/// with the words learned so far learned and saved (one record), or a clear.
 #[derive(Clone, Copy)]
 enum Step {
     Learn(&'static str),
+    Phrase,
     Clear,
 }
 
@@ -157,7 +167,13 @@ fn scenario() -> Vec<Step> {
         } else {
             text.split(' ').rev().collect()
         };
-        steps.extend(words.into_iter().map(Step::Learn));
+        for word in words {
+            steps.push(Step::Learn(word));
+            // Phrases in the first two passes: each is a record of its own.
+            if pass < 2 {
+                steps.push(Step::Phrase);
+            }
+        }
     }
     steps.insert(14, Step::Clear);
     steps
@@ -172,14 +188,21 @@ fn range(flash_len: usize) -> core::ops::Range<u32> {
 fn run(left: Option<usize>, flash_len: usize) -> (CutFlash, Vec<Snapshot>, usize) {
     let flash = CutFlash::new(vec![0xFF; flash_len], left);
     let mut store = FlashStore::new(flash, range(flash_len)).unwrap();
-    let mut memory = UserMemory::<WORDS>::new();
+    let mut memory = Memory::new();
     let mut states = vec![snapshot(&memory)];
     let mut committed = 0;
+    let mut text = String::new();
     if store.load(&mut memory).is_ok() {
         for step in scenario() {
             let done = match step {
                 Step::Learn(word) => {
                     memory.learn(word.as_bytes(), &WordList::EMPTY);
+                    text.push(' ');
+                    text.push_str(word);
+                    store.save(&mut memory).map(|_| ())
+                }
+                Step::Phrase => {
+                    memory.learn_phrase(text.as_bytes(), &WordList::EMPTY);
                     store.save(&mut memory).map(|_| ())
                 }
                 Step::Clear => store.clear(&mut memory),
@@ -196,8 +219,9 @@ fn run(left: Option<usize>, flash_len: usize) -> (CutFlash, Vec<Snapshot>, usize
 
 #[test]
 fn a_power_cut_after_any_number_of_flash_writes_keeps_the_last_or_the_new_memory() {
-    let flash_len = flash_bytes_needed(WORDS, PAGE, WORD);
-    assert_eq!(flash_len, 5 * PAGE);
+    let flash_len = flash_bytes_needed(WORDS, PHRASES, PAGE, WORD);
+    // 13 items of at most 76 bytes, 3 to a 256-byte page, and two spare pages.
+    assert_eq!(flash_len, 7 * PAGE);
     let (whole, states, committed) = run(None, flash_len);
     assert_eq!(committed, scenario().len());
     let operations = whole.operations;
@@ -218,7 +242,7 @@ fn a_power_cut_after_any_number_of_flash_writes_keeps_the_last_or_the_new_memory
         // Reboot: the same bytes, power back.
         let rebooted = CutFlash::new(flash.bytes, None);
         let mut store = FlashStore::new(rebooted, range(flash_len)).unwrap();
-        let mut memory = UserMemory::<WORDS>::new();
+        let mut memory = Memory::new();
         let report = store
             .load(&mut memory)
             .unwrap_or_else(|e| panic!("cut after {cut} operations: {e}"));
@@ -243,7 +267,7 @@ fn a_power_cut_after_any_number_of_flash_writes_keeps_the_last_or_the_new_memory
             .save(&mut memory)
             .unwrap_or_else(|e| panic!("cut after {cut}: {e}"));
         let mut again = FlashStore::new(store.into_flash(), range(flash_len)).unwrap();
-        let mut next = UserMemory::<WORDS>::new();
+        let mut next = Memory::new();
         again.load(&mut next).unwrap();
         assert_eq!(snapshot(&next), snapshot(&memory), "cut after {cut}");
     }
@@ -254,6 +278,6 @@ fn a_power_cut_after_any_number_of_flash_writes_keeps_the_last_or_the_new_memory
         outcomes[0], outcomes[1]
     );
     assert!(outcomes[0] > 0 && outcomes[1] > 0, "{outcomes:?}");
-    // The scenario filled the memory, so eviction was exercised too.
-    assert_eq!(final_memory.len(), WORDS);
+    // The scenario filled the memory, words and phrases, so eviction was exercised too.
+    assert_eq!(final_memory.len(), WORDS + 1 + PHRASES);
 }

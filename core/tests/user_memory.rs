@@ -178,3 +178,135 @@ fn a_search_with_memory_in_parts_gives_what_it_gives_at_once() {
         });
     }
 }
+
+/// Options with the memory's words and phrases, the cache weight 0.3 and top-k `k`.
+fn with_phrases<const N: usize, const P: usize>(
+    memory: &UserMemory<N, P>,
+    k: usize,
+) -> SearchOptions<'_> {
+    SearchOptions {
+        memory: Some(CacheBlend {
+            top_k: k,
+            ..CacheBlend::new(memory, 0.3)
+        }),
+        ..SearchOptions::new(3)
+    }
+}
+
+#[test]
+fn a_phrase_typed_twice_is_offered_whole_the_third_time() {
+    let mut memory = UserMemory::<64, 16>::new();
+    let line = b"Zorvath at the hut. ";
+    memory.learn_text(line, &WordList::EMPTY);
+    memory.learn_text(line, &WordList::EMPTY);
+    let phrase = memory
+        .phrases()
+        .iter()
+        .find(|p| p.text() == b"Zorvath at the hut")
+        .unwrap();
+    assert_eq!(phrase.count(), 2);
+    // A k of 256 accepts every byte: the draft comes back whole, in the last place.
+    let found = with_session(b"meet Zo", |s| {
+        s.suggest(&with_phrases(&memory, 256)).unwrap()
+    });
+    let offered = found.phrase.as_ref().expect("a phrase");
+    assert_eq!(offered.text.as_slice(), b"Zorvath at the hut");
+    assert!(found.list.len() <= 2, "{:?}", found.list);
+    // The same search in parts gives the same result.
+    let parts = with_session(b"meet Zo", |s| {
+        let options = with_phrases(&memory, 256);
+        let mut found = s.suggest_within(&options, 1).unwrap();
+        while s.is_refining() {
+            found = s.refine(&options, 1).unwrap();
+        }
+        found
+    });
+    assert_eq!(parts, found);
+    // Without the phrases (a memory of the same words only) the list is the plain one.
+    let mut words_only = UserMemory::<64>::new();
+    words_only.learn_text(line, &WordList::EMPTY);
+    words_only.learn_text(line, &WordList::EMPTY);
+    let options = SearchOptions {
+        memory: Some(CacheBlend::new(&words_only, 0.3)),
+        ..SearchOptions::new(3)
+    };
+    let plain = with_session(b"meet Zo", |s| s.suggest(&options).unwrap());
+    assert!(plain.phrase.is_none() && plain.list.len() <= 3);
+}
+
+#[test]
+fn the_draft_is_accepted_up_to_its_first_byte_outside_the_top_k() {
+    // The greedy top-k acceptance rule of draft and verify (the variant of Leviathan,
+    // Kalman & Matias 2023 the core documents), checked against the model's own next-byte
+    // logits after each prefix of the draft, read from sessions that typed the prefix
+    // (the session's scratch takes one byte a pass, so the verification rounds the state
+    // after each byte as typing does: the same bits).
+    let mut memory = UserMemory::<64, 16>::new();
+    memory.learn_text(b"Zorvath at the hut. ", &WordList::EMPTY);
+    let context = b"meet Zo";
+    let rest = b"rvath at the hut";
+    let ranks: Vec<usize> = (0..rest.len())
+        .map(|i| {
+            let mut typed = context.to_vec();
+            typed.extend_from_slice(&rest[..i]);
+            with_session(&typed, |s| {
+                let l = s.logits();
+                let own = l[rest[i] as usize];
+                l.iter().filter(|&&x| x > own).count()
+            })
+        })
+        .collect();
+    // Every k that accepts a longer first part: one more than the largest rank of each
+    // prefix of the draft, and the extremes.
+    let mut ks: Vec<usize> = (1..=rest.len())
+        .map(|i| ranks[..i].iter().max().unwrap() + 1)
+        .chain([1, 256])
+        .collect();
+    ks.sort();
+    ks.dedup();
+    let mut cut_inside = 0;
+    for k in ks {
+        // The first drafted byte with k or more likelier bytes ends the accepted part.
+        let accepted = ranks.iter().position(|&r| r >= k).unwrap_or(rest.len());
+        let expected = inkling_core::session::draft::word_end_within(rest, accepted)
+            .map(|end| [&context[5..], &rest[..end]].concat());
+        let found = with_session(context, |s| s.suggest(&with_phrases(&memory, k)).unwrap());
+        let got = found.phrase.map(|p| p.text.to_vec());
+        assert_eq!(got, expected, "k {k}, ranks {ranks:?}");
+        if expected
+            .as_ref()
+            .is_some_and(|e| e.len() < context.len() - 5 + rest.len())
+        {
+            cut_inside += 1;
+        }
+    }
+    // The rule was exercised where it matters: some k stops the draft inside the phrase.
+    assert!(cut_inside > 0, "ranks {ranks:?}");
+}
+
+#[test]
+fn a_learned_name_is_offered_for_its_keys() {
+    // ITU-T E.161 letters: Z 9, o 6, r 7, v 8, a 2, t 8, h 4. A name unknown to the model,
+    // typed twice, is among the words offered for its seven keys with the memory, and a
+    // learned word of other keys ("Zorvan") is not.
+    use inkling_core::session::KeyMap;
+    let mut memory = UserMemory::<16>::new();
+    memory.learn_text(b"Zorvath Zorvan Zorvath", &WordList::EMPTY);
+    let options = SearchOptions {
+        memory: Some(CacheBlend::new(&memory, 0.3)),
+        ..SearchOptions::new(3)
+    };
+    let keys = b"9678284";
+    let with = with_session(b"call ", |s| s.keys(keys, &KeyMap::E161, &options).unwrap());
+    assert!(
+        with.list.iter().any(|x| x.text.as_slice() == b"Zorvath"),
+        "{:?}",
+        with.list
+    );
+    assert!(with.list.iter().all(|x| x.text.as_slice() != b"Zorvan"));
+    assert!(with.phrase.is_none());
+    let plain = with_session(b"call ", |s| {
+        s.keys(keys, &KeyMap::E161, &SearchOptions::new(3)).unwrap()
+    });
+    assert!(plain.list.iter().all(|x| x.text.as_slice() != b"Zorvath"));
+}

@@ -14,7 +14,7 @@ use crate::keystroke_savings::MEMORY_WORDS;
 pub const SECTOR: usize = 4096;
 
 /// Bytes of the file: [`flash_bytes_needed`] for [`MEMORY_WORDS`] words in [`SECTOR`]s.
-pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, SECTOR, 4);
+pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, 0, SECTOR, 4);
 
 /// A memory file: its path and its bytes (all erased for a file that does not exist yet).
 #[derive(Debug)]

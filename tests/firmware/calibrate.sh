@@ -59,7 +59,7 @@ shapes=(
 # fields $3, then the figures the cost model uses.
 measure() {
   local image=$1 name=$2 fields=$3 key value
-  INKLING_IMAGE="$image" "$here/run.sh" --core "$core" --skip-unit --input "$work/typing.txt" \
+  INKLING_IMAGE="$image" "$here/run.sh" --core "$core" --skip-unit --skip-memory --input "$work/typing.txt" \
     --out "$work/$name" >/dev/null
   while read -r key value; do
     case "$key" in

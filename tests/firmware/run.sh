@@ -7,11 +7,15 @@
 # prefill, flash and RAM from the linker's sections, and the stack high-water mark. Then it
 # runs kernel_count: the core's matrix-vector kernel (SMLAD on the Cortex-M4F, the portable
 # one elsewhere) checked against the portable one, and its instructions per
-# multiply-accumulate.
+# multiply-accumulate. On the Cortex-M4F it then runs memory_reboot (a session that learns
+# words and phrases, its user memory through a simulated reboot; see
+# tests/firmware/memory_reboot.sh) and adds its figures (memory_*: the instructions learning
+# adds per keystroke, mean and largest; draft_*: the cost per verified byte of a phrase
+# draft, chunked against stepped); it fails if the memory read back differs.
 #
 # usage: tests/firmware/run.sh [--core cortex-m4f|cortex-m0plus|riscv32imc]
 #                              [--profile release|release-o3] [--input FILE] [--out DIR]
-#                              [--skip-unit]
+#                              [--skip-unit] [--skip-memory]
 #   --core       the core (default cortex-m4f): cortex-m4f builds for thumbv7em-none-eabihf
 #                and runs on mps2-an386; cortex-m0plus builds for thumbv6m-none-eabi and runs
 #                on mps2-an385 (a Cortex-M3: ARMv6-M code is a subset of ARMv7-M);
@@ -29,6 +33,7 @@
 #                keystrokes.txt, keystroke_totals.txt and keypresses.txt (instructions of
 #                each, one a line)
 #   --skip-unit  do not run the firmware crate's unit tests on the host first
+#   --skip-memory  do not run memory_reboot (calibrate.sh, which measures other shapes)
 # environment: INKLING_IMAGE picks the model image built in, INKLING_DENY and INKLING_LEXICON
 # the word lists (see firmware-example/README.md); the run checks that no word of the deny
 # list is offered.
@@ -41,6 +46,7 @@ profile=release
 input=""
 out=""
 unit=1
+memory=1
 # Lines of typing.txt the cores without an FPU type by default (54 keystrokes).
 SHORT_LINES=4
 while [ $# -gt 0 ]; do
@@ -50,6 +56,7 @@ while [ $# -gt 0 ]; do
     --input) input=$2; shift 2 ;;
     --out) out=$2; shift 2 ;;
     --skip-unit) unit=0; shift ;;
+    --skip-memory) memory=0; shift ;;
     *) echo "run.sh: unknown argument $1" >&2; exit 2 ;;
   esac
 done
@@ -160,6 +167,17 @@ if [ "$status" -ne 0 ]; then
   exit 1
 fi
 sed -n 's/^figure \(kernel_\)/\1/p' "$out/kernel_log.txt" >>"$out/figures.txt"
+if [ "$core" = cortex-m4f ] && [ "$memory" -eq 1 ]; then
+  echo "== the user memory (memory_reboot): learning's cost per keystroke, a simulated reboot" >&2
+  status=0
+  run 300 memory_reboot </dev/null >/dev/null 2>"$out/memory_log.txt" || status=$?
+  if [ "$status" -ne 0 ] || ! grep -q 'survived the reboot' "$out/memory_log.txt"; then
+    echo "run.sh: memory_reboot failed (exit status $status)" >&2
+    cat "$out/memory_log.txt" >&2
+    exit 1
+  fi
+  sed -n 's/^figure \(memory_\|draft_\)/\1/p' "$out/memory_log.txt" >>"$out/figures.txt"
+fi
 # Instructions per weight of a whole step (x1000), the figure the budget's cost model uses.
 awk '$1 == "step_instructions" { s = $2 } $1 == "step_macs" { m = $2 }
      END { if (m > 0) printf "step_instructions_per_weight_milli %d\n", 1000 * s / m }' \

@@ -338,11 +338,16 @@ pub const MEMORY_FLASH_PAGES: usize = 4;
 pub const MEMORY_FLASH_PAGE: usize = 256;
 /// Words of the memory it reads into.
 const MEMORY_WORDS: usize = 16;
+/// Phrases of the memory it reads into.
+const MEMORY_PHRASES: usize = 8;
+/// The memory it reads into.
+type FuzzMemory = UserMemory<MEMORY_WORDS, MEMORY_PHRASES>;
 
 /// Target `memory_flash`: the user memory's flash store reading damaged flash. The bytes are
 /// the flash contents ([`MEMORY_FLASH_PAGES`] pages of [`MEMORY_FLASH_PAGE`] bytes; short
 /// inputs are padded with erased bytes). Loading gives an error or a memory of distinct,
-/// well-formed words within capacity; a memory that loads takes a new word and is saved,
+/// well-formed words and phrases within capacity; a memory that loads takes a new word and
+/// phrase and is saved,
 /// and reading the flash again gives the same guarantee. (That the word saved is read back
 /// is promised only for flash that nothing but the store and power cuts wrote, which the
 /// power-cut test checks: the store appends to space it finds erased-looking, and damage
@@ -355,23 +360,24 @@ pub fn memory_flash(data: &[u8]) {
     }
     let flash = RamFlash::<MEMORY_FLASH_PAGE>::new(&mut bytes);
     let mut store = FlashStore::new(flash, 0..len as u32).expect("a range of whole pages");
-    let mut memory = UserMemory::<MEMORY_WORDS>::new();
+    let mut memory = FuzzMemory::new();
     if !loads_well_formed(&mut store, &mut memory) {
         return;
     }
     memory.learn(b"afterwards", &WordList::EMPTY);
+    memory.learn_phrase(b"long afterwards", &WordList::EMPTY);
     if store.save(&mut memory).is_err() {
         return;
     }
     let mut again = FlashStore::new(store.into_flash(), 0..len as u32).expect("same range");
-    loads_well_formed(&mut again, &mut UserMemory::<MEMORY_WORDS>::new());
+    loads_well_formed(&mut again, &mut FuzzMemory::new());
 }
 
 /// Loads `memory` from `store`: on an error the memory is empty, otherwise its words are
 /// distinct, well-formed and within capacity. Whether it loaded.
 fn loads_well_formed(
     store: &mut FlashStore<RamFlash<'_, MEMORY_FLASH_PAGE>>,
-    memory: &mut UserMemory<MEMORY_WORDS>,
+    memory: &mut FuzzMemory,
 ) -> bool {
     if store.load(memory).is_err() {
         assert!(memory.is_empty(), "a failed load leaves the memory empty");
@@ -385,6 +391,18 @@ fn loads_well_formed(
         assert!(
             words[..i].iter().all(|v| v.text() != w.text()),
             "a word twice"
+        );
+    }
+    let phrases = memory.phrases();
+    assert!(phrases.len() <= MEMORY_PHRASES);
+    for (i, p) in phrases.iter().enumerate() {
+        let text = p.text();
+        assert!(p.count() > 0 && std::str::from_utf8(text).is_ok());
+        assert!(text.len() <= inkling_core::user_memory::MAX_PHRASE_LEN);
+        assert!(text.iter().any(|&b| inkling_core::session::is_boundary(b)));
+        assert!(
+            phrases[..i].iter().all(|q| q.text() != text),
+            "a phrase twice"
         );
     }
     true

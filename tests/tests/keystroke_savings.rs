@@ -40,6 +40,7 @@ fn baseline_on_a_tiny_corpus_matches_the_keys_counted_by_hand() {
             words: 6,
             taken: 5,
             taken_before_space: 4,
+            phrases_taken: 0,
         }
     );
     assert_eq!(keys.savings(true, false), 6.0 / 21.0);
@@ -146,14 +147,19 @@ fn a_learning_device_offers_a_repeated_name_counted_by_hand() {
     // with the 3 spaces typed: 12 keys, KS = 12/24 (the definition of Trnka & McCoy 2008).
     use inkling_core::image::example::tiny_image;
     use inkling_core::session::DEFAULT_HISTORY;
+    use inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K;
     use inkling_core::Model;
-    use inkling_host::keystroke_savings::{session_memory, Learning, ModelPredictor};
+    use inkling_host::keystroke_savings::{session_memory, LearnOptions, Learning, ModelPredictor};
     let image = tiny_image();
     let model = Model::from_bytes(&image).unwrap();
     let mut buffers = session_memory(model.dims(), 3);
     let session = buffers.session::<_, 3, DEFAULT_HISTORY>(model).unwrap();
     let options = inkling_core::session::SearchOptions::new(3);
-    let mut predictor = ModelPredictor::new(session, options).learning(Learning::new(0.4));
+    let learn = LearnOptions {
+        weight: 0.4,
+        draft_top_k: DEFAULT_DRAFT_TOP_K,
+    };
+    let mut predictor = ModelPredictor::new(session, options).learning(Learning::new(learn));
     let text = b"Zorvath Zorvath Zorvath ";
     let keys = simulate(text, 3, &mut predictor).unwrap();
     assert_eq!((keys.bytes, keys.keys, keys.taken), (24, 12, 2));
@@ -192,4 +198,9 @@ fn eval_learn_reports_with_learning_beside_model() {
     // The logbook repeats its names: the memory holds words, at most its capacity.
     let words = ks["learning"]["words_learned"].as_u64().unwrap();
     assert!(words > 10 && words <= ks["learning"]["memory_capacity_words"].as_u64().unwrap());
+    // And phrases: one ends at nearly every word, within its capacity.
+    let phrases = ks["learning"]["phrases_learned"].as_u64().unwrap();
+    let capacity = ks["learning"]["memory_capacity_phrases"].as_u64().unwrap();
+    assert!(phrases > 10 && phrases <= capacity);
+    assert!(ks["learning"]["phrases_taken"].as_u64().is_some());
 }

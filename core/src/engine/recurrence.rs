@@ -136,9 +136,81 @@ pub fn prefill_stored<'s, W: Weights + ?Sized, S: StateStore + ?Sized>(
     };
     let passes = bytes.len().div_ceil(chunk);
     for (pass, part) in bytes.chunks(chunk).enumerate() {
-        run_pass(weights, &d, state, scratch, part, pass + 1 == passes);
+        let wanted = if pass + 1 == passes {
+            Wanted::Last
+        } else {
+            Wanted::None
+        };
+        run_pass(weights, &d, state, scratch, part, wanted);
     }
     Ok(scratch.logits())
+}
+
+/// Runs known bytes through the model as [`prefill_stored`] does, but computes the logits
+/// after *every* byte and hands them to `check` with the byte's index, stopping after the
+/// first byte for which `check` returns `false`; returns how many bytes went through the
+/// model (the whole passes run: a pass is not cut short, so the state may have taken more
+/// bytes than were checked). Used to verify a drafted continuation in one pass (see
+/// [`draft`](crate::session::draft)): the blocks run over the whole pass, reading each
+/// weight row once, and only the output head runs once per byte.
+///
+/// The logits handed over are those [`step`] would give after the same bytes on an f32
+/// state (on a [`StateStore`] that rounds, its rounding happens at the end of each pass).
+///
+/// ```
+/// use inkling_core::{Model, Scratch, engine::recurrence::{prefill_checked, step}};
+/// # let image = inkling_core::image::example::tiny_image();
+/// let model = Model::from_bytes(&image)?;
+/// let d = *model.dims();
+/// let (mut work, mut act) = (vec![0.0; d.chunk_work_len(8)], vec![0; d.chunk_act_len(8)]);
+/// let mut chunked = Scratch::new(&d, &mut work, &mut act)?;
+/// let mut a = vec![0.0; d.state_len()];
+/// let mut seen = Vec::new();
+/// let fed = prefill_checked(&model, &mut a[..], &mut chunked, b"hut", |_, l| {
+///     seen.push(l.to_vec());
+///     true
+/// })?;
+/// assert_eq!(fed, 3);
+/// let (mut w1, mut a1) = (vec![0.0; d.work_len()], vec![0; d.act_len()]);
+/// let mut single = Scratch::new(&d, &mut w1, &mut a1)?;
+/// let mut b = vec![0.0; d.state_len()];
+/// for (i, &byte) in b"hut".iter().enumerate() {
+///     assert_eq!(step(&model, &mut b, &mut single, byte)?, &seen[i][..]);
+/// }
+/// # Ok::<(), inkling_core::Error>(())
+/// ```
+pub fn prefill_checked<W: Weights + ?Sized, S: StateStore + ?Sized>(
+    weights: &W,
+    state: &mut S,
+    scratch: &mut Scratch<'_>,
+    bytes: &[u8],
+    mut check: impl FnMut(usize, &[f32]) -> bool,
+) -> Result<usize, Error> {
+    let d = *weights.dims();
+    check_len("state", d.state_len(), state.state_len())?;
+    let chunk = scratch.chunk_capacity();
+    let mut fed = 0usize;
+    for part in bytes.chunks(chunk) {
+        let first = fed;
+        let mut each = |i: usize, logits: &[f32]| check(first + i, logits);
+        let go_on = run_pass(weights, &d, state, scratch, part, Wanted::Each(&mut each));
+        fed += part.len();
+        if !go_on {
+            break;
+        }
+    }
+    Ok(fed)
+}
+
+/// Which logits a pass computes.
+enum Wanted<'f> {
+    /// None (a pass whose logits nobody reads).
+    None,
+    /// After the last byte, left in the scratch.
+    Last,
+    /// After every byte, each handed to the function with the byte's index in the pass;
+    /// `false` from it ends the pass's head early.
+    Each(&'f mut dyn FnMut(usize, &[f32]) -> bool),
 }
 
 /// The per-byte work areas of one pass, each `t` vectors long.
@@ -158,8 +230,8 @@ fn run_pass<W: Weights + ?Sized, S: StateStore + ?Sized>(
     state: &mut S,
     scratch: &mut Scratch<'_>,
     bytes: &[u8],
-    logits_wanted: bool,
-) {
+    mut wanted: Wanted<'_>,
+) -> bool {
     let t = bytes.len();
     let (i_n, n, k, r, dm) = (d.d_inner, d.d_state, d.d_conv, d.dt_rank, d.d_model);
     let work = &mut *scratch.work;
@@ -187,10 +259,10 @@ fn run_pass<W: Weights + ?Sized, S: StateStore + ?Sized>(
     for l in 0..d.blocks {
         // Every byte's output of a block feeds the next block; the last block's outputs feed
         // only the head, which wants the last byte's, or none.
-        let output_from = match (l + 1 == d.blocks, logits_wanted) {
-            (false, _) => 0,
-            (true, true) => t.saturating_sub(1),
-            (true, false) => t,
+        let output_from = match (l + 1 == d.blocks, &wanted) {
+            (false, _) | (true, Wanted::Each(_)) => 0,
+            (true, Wanted::Last) => t.saturating_sub(1),
+            (true, Wanted::None) => t,
         };
         let block = Block {
             weights,
@@ -203,11 +275,26 @@ fn run_pass<W: Weights + ?Sized, S: StateStore + ?Sized>(
             block.run(block_state, &mut a, act)
         });
     }
-    if logits_wanted {
-        let last = a.u.chunks_exact(dm).last().unwrap_or(&[]);
+    let mut head = |u_t: &[f32], logits: &mut [f32]| {
         let h0 = a.h.get_mut(..dm).unwrap_or(&mut []);
-        rms_norm(last, weights.floats(0, Role::FinalNorm), d.norm_eps, h0);
+        rms_norm(u_t, weights.floats(0, Role::FinalNorm), d.norm_eps, h0);
         weights.matvec(0, Role::Head, h0, act, logits);
+    };
+    match &mut wanted {
+        Wanted::None => true,
+        Wanted::Last => {
+            head(a.u.chunks_exact(dm).last().unwrap_or(&[]), logits);
+            true
+        }
+        Wanted::Each(check) => {
+            for (i, u_t) in a.u.chunks_exact(dm).enumerate() {
+                head(u_t, logits);
+                if !check(i, logits) {
+                    return false;
+                }
+            }
+            true
+        }
     }
 }
 

@@ -62,6 +62,8 @@ impl StateStore for [f32] {
 pub struct HalfState<'a> {
     bits: &'a mut [u16],
     work: &'a mut [f32],
+    /// Whether several bytes may go through in one pass (rounded at the end of the pass).
+    passes: bool,
 }
 
 impl<'a> HalfState<'a> {
@@ -78,7 +80,21 @@ impl<'a> HalfState<'a> {
         super::buffers::check_len("state", dims.state_len(), bits.len())?;
         super::buffers::check_len("state work", dims.block_state_len(), work.len())?;
         let bits = bits.get_mut(..dims.state_len()).unwrap_or(&mut []);
-        Ok(HalfState { bits, work })
+        Ok(HalfState {
+            bits,
+            work,
+            passes: false,
+        })
+    }
+
+    /// The same state, taking several bytes a pass and rounded to 16 bits at the end of
+    /// each pass rather than after every byte: for a pass whose state is thrown away (a
+    /// phrase draft's verification), where the rounding need not match typing.
+    pub(crate) fn in_passes(self) -> Self {
+        HalfState {
+            passes: true,
+            ..self
+        }
     }
 }
 
@@ -88,7 +104,7 @@ impl StateStore for HalfState<'_> {
     }
 
     fn takes_passes(&self) -> bool {
-        false
+        self.passes
     }
 
     fn with_block(&mut self, l: usize, per_block: usize, f: impl FnOnce(&mut [f32])) {

@@ -35,11 +35,13 @@
 //! copy is made before any step of the round, since a step overwrites its slot.
 //!
 //! With a user memory ([`SearchOptions::memory`]), the learned words that start with the
-//! word typed are blended in as a cache model once the rounds end; those the search did
+//! word typed (on 12-key entry, those whose rest fits the keys, which are then the whole
+//! cache) are blended in as a cache model once the rounds end; those the search did
 //! not finish are scored by stepping their remaining bytes in the first beam slot, within
 //! the same step budget (see [`cache_blend`](crate::user_memory::cache_blend)).
 
 use super::beam_slots::Slots;
+use super::draft::{choose_draft, in_top_k, word_end_within, Draft, Phrase};
 use super::keypad::KeyMap;
 use super::log_softmax::LogSoftmax;
 use super::suggestion::{SearchOptions, Suggestion, Suggestions};
@@ -49,7 +51,7 @@ use super::word_buffer::{Word, MAX_WORD_LEN};
 use crate::engine::buffers::Scratch;
 use crate::engine::weights::Weights;
 use crate::error::Error;
-use crate::user_memory::CacheBlend;
+use crate::user_memory::{CacheBlend, MAX_PHRASE_LEN};
 
 /// What the searched words look like after the bytes already typed.
 #[derive(Debug, Clone, Copy)]
@@ -91,6 +93,20 @@ impl Shape<'_> {
             Shape::Free => started > 0,
             Shape::Keys { keys, .. } => started == keys.len(),
         }
+    }
+
+    /// Whether a whole completion `rest` (the bytes after the word typed) has this shape.
+    fn fits(&self, rest: &[u8]) -> bool {
+        let mut started = 0usize;
+        for &b in rest {
+            if !self.allows(started, b) {
+                return false;
+            }
+            if !is_continuation(b) {
+                started += 1;
+            }
+        }
+        self.may_end(started)
     }
 }
 
@@ -166,14 +182,21 @@ pub(crate) struct Search<const K: usize> {
     learned_next: usize,
     /// `Σ c(v)` over the learned words that start with the word typed: 0 means no blend.
     cache_total: u32,
+    /// The phrase draft still to verify (see [`draft`](super::draft)).
+    draft: Option<Draft>,
+    /// The phrase the verification accepted.
+    phrase: Option<Phrase>,
 }
 
 impl<const K: usize> Search<K> {
     /// A search from the word typed so far, whose state is in `root_slot`, with
-    /// `options.width <= K` beams.
+    /// `options.width <= K` beams; `before` is the text before the word (its end is the
+    /// context of a phrase draft).
     pub(crate) fn start(
         word: &[u8],
+        before: &[u8],
         root_slot: usize,
+        shape: Shape<'_>,
         options: &SearchOptions<'_>,
     ) -> Result<Self, Error> {
         if options.width > K {
@@ -193,8 +216,25 @@ impl<const K: usize> Search<K> {
             ..Search::default()
         };
         if let Some(blend) = &options.memory {
-            search.cache_total = blend.prefix_total(word);
-            search.learned = learned_candidates(blend, word, options);
+            search.learned = learned_candidates(blend, word, shape, options);
+            match shape {
+                Shape::Free => {
+                    search.cache_total = blend.prefix_total(word);
+                    if search.running {
+                        search.draft = choose_draft(blend.phrases, before, word);
+                    }
+                }
+                // On 12-key entry the cache is the learned words that fit the keys, and no
+                // phrase is drafted.
+                Shape::Keys { .. } => {
+                    search.cache_total = blend
+                        .words
+                        .iter()
+                        .filter(|w| fits_after(w.text(), word, shape))
+                        .map(|w| u32::from(w.count()))
+                        .sum();
+                }
+            }
         }
         let _ = search.pending.push(Beam {
             text,
@@ -289,10 +329,99 @@ impl<const K: usize> Search<K> {
             self.candidates.clear();
         }
         if self.running {
-            self.score_learned(
+            let taken = self.score_learned(
                 weights, scratch, slots, prefix, first_beam, options, budget, taken,
             )?;
+            if let Some(taken) = taken {
+                self.verify_draft(
+                    weights,
+                    scratch,
+                    slots,
+                    root.logits,
+                    first_beam,
+                    options,
+                    budget,
+                    taken,
+                )?;
+            }
         }
+        Ok(())
+    }
+
+    /// Verifies the phrase draft (see [`draft`](super::draft)) on a copy of the root's
+    /// state in the first beam slot, once the word search is done; waits for the next call
+    /// when this one has taken steps and the draft would pass its `budget`.
+    #[allow(clippy::too_many_arguments)]
+    fn verify_draft<W: Weights + ?Sized>(
+        &mut self,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        slots: &mut Slots<'_>,
+        root_logits: &[f32],
+        first_beam: usize,
+        options: &SearchOptions<'_>,
+        budget: usize,
+        taken: usize,
+    ) -> Result<(), Error> {
+        let (Some(draft), Some(blend)) = (self.draft.take(), options.memory) else {
+            self.running = false;
+            return Ok(());
+        };
+        let whole = draft.rest();
+        // The first drafted byte is checked on the root's logits; each further one is fed.
+        let left = options.max_steps.saturating_sub(self.out.steps);
+        let rest = whole.get(..whole.len().min(left + 1)).unwrap_or(&[]);
+        let feed = rest.len().saturating_sub(1);
+        if taken > 0 && taken + feed > budget {
+            self.draft = Some(draft);
+            return Ok(());
+        }
+        self.out.cut_short |= rest.len() < whole.len();
+        let k = blend.top_k;
+        let mut logprobs = [0.0f32; MAX_PHRASE_LEN];
+        let mut accepted = 0usize;
+        let log_prob = |logits: &[f32], byte: u8| {
+            let norm = LogSoftmax::of(logits);
+            logits
+                .get(usize::from(byte))
+                .map_or(f32::NEG_INFINITY, |&l| norm.log_prob(l))
+        };
+        if let Some(&first) = rest.first() {
+            if in_top_k(root_logits, first, k) {
+                if let Some(lp) = logprobs.first_mut() {
+                    *lp = log_prob(root_logits, first);
+                }
+                accepted = 1;
+            }
+        }
+        if accepted == 1 && feed > 0 {
+            slots.copy_state(self.root_slot, first_beam);
+            let fed = slots.check(
+                first_beam,
+                weights,
+                scratch,
+                rest.get(..feed).unwrap_or(&[]),
+                |i, logits| {
+                    let Some(&next) = rest.get(i + 1) else {
+                        return false;
+                    };
+                    if !in_top_k(logits, next, k) {
+                        return false;
+                    }
+                    if let Some(lp) = logprobs.get_mut(i + 1) {
+                        *lp = log_prob(logits, next);
+                    }
+                    accepted = i + 2;
+                    true
+                },
+            )?;
+            self.out.steps += fed;
+        }
+        if let Some(end) = word_end_within(rest, accepted) {
+            let logprob = logprobs.get(..end).unwrap_or(&[]).iter().sum();
+            self.phrase = Some(draft.phrase(end, logprob));
+        }
+        self.running = false;
         Ok(())
     }
 
@@ -312,12 +441,14 @@ impl<const K: usize> Search<K> {
                 learned.logprob = logit.map_or(f32::NEG_INFINITY, |l| norm.log_prob(l));
             }
         }
-        self.running = !self.out.cut_short && self.learned.iter().any(|l| !l.scored);
+        self.running =
+            !self.out.cut_short && (self.learned.iter().any(|l| !l.scored) || self.draft.is_some());
     }
 
     /// Scores the learned words left, one engine step per byte of their rest, in the first
     /// beam slot (free once the rounds have ended), within `budget` more steps and
-    /// `options.max_steps` in all.
+    /// `options.max_steps` in all. Returns the steps taken in this call once every learned
+    /// word is scored, `None` if it stopped before.
     #[allow(clippy::too_many_arguments)]
     fn score_learned<W: Weights + ?Sized>(
         &mut self,
@@ -329,7 +460,7 @@ impl<const K: usize> Search<K> {
         options: &SearchOptions<'_>,
         budget: usize,
         mut taken: usize,
-    ) -> Result<(), Error> {
+    ) -> Result<Option<usize>, Error> {
         while self.learned_next < self.learned.len() {
             let floor = self.floor(options, self.learned_next);
             let Some(learned) = self.learned.get_mut(self.learned_next) else {
@@ -358,10 +489,10 @@ impl<const K: usize> Search<K> {
             if self.out.steps >= options.max_steps {
                 self.out.cut_short = true;
                 self.running = false;
-                return Ok(());
+                return Ok(None);
             }
             if taken >= budget {
-                return Ok(());
+                return Ok(None);
             }
             if learned.stepped == 0 {
                 slots.copy_state(self.root_slot, first_beam);
@@ -387,8 +518,7 @@ impl<const K: usize> Search<K> {
                 self.learned_next += 1;
             }
         }
-        self.running = false;
-        Ok(())
+        Ok(Some(taken))
     }
 
     /// The lowest blend a word needs to enter the results: the `width`-th best of what the
@@ -429,10 +559,16 @@ impl<const K: usize> Search<K> {
     /// flagged unfinished.
     pub(crate) fn result(&self, options: &SearchOptions<'_>) -> Suggestions<K> {
         let plain = self.model_result(options);
-        match &options.memory {
+        let mut out = match &options.memory {
             Some(blend) if self.cache_total > 0 => self.blended(plain, blend, options.width),
             _ => plain,
+        };
+        // A phrase takes the last of the `width` places (see `draft`).
+        if let Some(phrase) = &self.phrase {
+            out.list.truncate(options.width.saturating_sub(1));
+            out.phrase = Some(phrase.clone());
         }
+        out
     }
 
     /// The results ranked by the cache model: the model's finished words and the learned
@@ -526,19 +662,27 @@ impl<const K: usize> Search<K> {
     }
 }
 
+/// Whether `text` is `word` followed by a completion of `shape` (at least one byte).
+fn fits_after(text: &[u8], word: &[u8], shape: Shape<'_>) -> bool {
+    text.len() > word.len()
+        && text.starts_with(word)
+        && (matches!(shape, Shape::Free) || shape.fits(text.get(word.len()..).unwrap_or(&[])))
+}
+
 /// The learned words a search offers after `word`: those that start with it, add at least
-/// one byte and pass the filter, the `options.width` most frequent (the most recently used
-/// first among equals), model scores unknown.
+/// one byte of the `shape` and pass the filter, the `options.width` most frequent (the most
+/// recently used first among equals), model scores unknown.
 fn learned_candidates<const K: usize>(
     blend: &CacheBlend<'_>,
     word: &[u8],
+    shape: Shape<'_>,
     options: &SearchOptions<'_>,
 ) -> heapless::Vec<LearnedCandidate, K> {
     let mut chosen: heapless::Vec<LearnedCandidate, K> = heapless::Vec::new();
     let rank = |c: &LearnedCandidate| (c.count, c.last_used);
     for w in blend.words {
         let text = w.text();
-        if text.len() <= word.len() || !text.starts_with(word) || !options.filter.offers(text) {
+        if !fits_after(text, word, shape) || !options.filter.offers(text) {
             continue;
         }
         let Ok(text) = Word::from_slice(text) else {

@@ -1,7 +1,7 @@
 //! Caller-owned storage for a session's engine states, kept in 16-bit floats.
 
 use crate::engine::buffers::Scratch;
-use crate::engine::recurrence::prefill_stored;
+use crate::engine::recurrence::{prefill_checked, prefill_stored};
 use crate::engine::state_store::{narrow, widen, HalfState};
 use crate::engine::weights::Weights;
 use crate::error::Error;
@@ -103,5 +103,23 @@ impl<'b> Slots<'b> {
         let bits = self.bits.get_mut(range).unwrap_or(&mut []);
         let mut state = HalfState::new(&self.dims, bits, self.work)?;
         prefill_stored(weights, &mut state, scratch, bytes)
+    }
+
+    /// Runs `bytes` through the model on the state of `slot` in passes of the scratch's
+    /// chunk capacity (rounded to 16 bits after each pass), handing the logits after each
+    /// byte to `check` until it returns `false`; returns the bytes fed (see
+    /// [`prefill_checked`]).
+    pub(crate) fn check<W: Weights + ?Sized>(
+        &mut self,
+        slot: usize,
+        weights: &W,
+        scratch: &mut Scratch<'_>,
+        bytes: &[u8],
+        check: impl FnMut(usize, &[f32]) -> bool,
+    ) -> Result<usize, Error> {
+        let range = self.range(slot);
+        let bits = self.bits.get_mut(range).unwrap_or(&mut []);
+        let mut state = HalfState::new(&self.dims, bits, self.work)?.in_passes();
+        prefill_checked(weights, &mut state, scratch, bytes, check)
     }
 }

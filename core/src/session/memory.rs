@@ -2,6 +2,7 @@
 
 use super::beam_search::{Beam, Candidate, LearnedCandidate};
 use super::beam_slots::Slots;
+use super::draft::{Draft, Phrase};
 use super::suggestion::Suggestion;
 use super::word_buffer::WordBuffer;
 use crate::image::dims::Dims;
@@ -29,7 +30,7 @@ impl Dims {
     /// - the fixed text buffers in the session: the history and the current word;
     /// - the search kept in the session between calls (the beams of a round, its parents and
     ///   the beams the budget stopped, the candidates, the results and the learned words
-    ///   offered from a user memory, `k` of each) and what
+    ///   offered from a user memory, `k` of each, and a phrase draft) and what
     ///   a round builds on the stack (the next beams);
     /// - [`SESSION_HANDLE_BYTES`] for the model handle and the slices and lengths in the
     ///   session value.
@@ -64,7 +65,8 @@ impl Dims {
 /// ```
 pub const SESSION_HANDLE_BYTES: usize = 64 * core::mem::size_of::<usize>();
 
-/// Bytes of a search kept for `k` beams: its lists and their lengths and flags.
+/// Bytes of a search kept for `k` beams: its lists and their lengths and flags, and the
+/// phrase draft, the phrase verified and the one in its results.
 const fn search_bytes(k: usize) -> usize {
     use core::mem::size_of;
     k * (3 * size_of::<Beam>()
@@ -72,6 +74,8 @@ const fn search_bytes(k: usize) -> usize {
         + size_of::<Suggestion>()
         + size_of::<LearnedCandidate>())
         + size_of::<[usize; 12]>()
+        + size_of::<Option<Draft>>()
+        + 2 * size_of::<Option<Phrase>>()
 }
 
 #[cfg(test)]

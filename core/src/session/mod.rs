@@ -5,7 +5,9 @@
 //!   ([`Session::suggest`]), by beam search over bytes ([`beam_search`]);
 //! - 12-key (ITU-T E.161) entry: the likely words whose letters fit the keys pressed
 //!   ([`Session::keys`], [`KeyMap`]);
-//! - backspace, within a word and across word boundaries.
+//! - backspace, within a word and across word boundaries;
+//! - with a user memory, its learned words blended in and its phrases offered once the
+//!   model has verified them ([`draft`]).
 //!
 //! Deny lists and lexicons are sorted word lists in flash ([`WordList`]); the step budget
 //! of a search ([`SearchOptions::max_steps`]) bounds the time per keystroke, and
@@ -36,6 +38,7 @@
 
 pub mod beam_search;
 mod beam_slots;
+pub mod draft;
 pub mod keypad;
 pub mod log_softmax;
 pub mod memory;

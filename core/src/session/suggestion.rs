@@ -50,9 +50,9 @@ pub struct SearchOptions<'a> {
     pub filter: WordFilter<'a>,
     /// The user memory to blend with the model as a cache model (see
     /// [`cache_blend`](crate::user_memory::cache_blend)); `None` gives the model's
-    /// suggestions alone, exactly as before there was a memory. Only
-    /// [`Session::suggest`](super::Session::suggest) and its parts use it; 12-key entry
-    /// ([`Session::keys`](super::Session::keys)) does not.
+    /// suggestions alone, exactly as before there was a memory. 12-key entry
+    /// ([`Session::keys`](super::Session::keys)) blends in the learned words that fit the
+    /// keys (its cache is those words) and offers no phrases.
     pub memory: Option<CacheBlend<'a>>,
 }
 
@@ -105,7 +105,7 @@ pub struct Suggestion {
 /// ```
 /// use inkling_core::session::Suggestions;
 /// let none = Suggestions::<3>::default();
-/// assert!(none.list.is_empty() && !none.cut_short && none.steps == 0);
+/// assert!(none.list.is_empty() && !none.cut_short && none.steps == 0 && none.phrase.is_none());
 /// ```
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Suggestions<const K: usize> {
@@ -116,4 +116,8 @@ pub struct Suggestions<const K: usize> {
     pub steps: usize,
     /// Whether the step budget stopped the search.
     pub cut_short: bool,
+    /// A phrase from the user memory that the model verified (see
+    /// [`draft`](super::draft)); it takes the last of the `width` places, so `list` then
+    /// holds at most `width − 1` words. Always `None` without a memory holding phrases.
+    pub phrase: Option<super::draft::Phrase>,
 }

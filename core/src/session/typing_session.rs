@@ -11,6 +11,7 @@ use crate::engine::buffers::Scratch;
 use crate::engine::weights::Weights;
 use crate::error::Error;
 use crate::image::format::VOCAB;
+use crate::user_memory::MAX_PHRASE_LEN;
 
 /// The slot of the live state, the state after all the text.
 const LIVE: usize = 0;
@@ -371,7 +372,9 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         options: &SearchOptions<'_>,
         steps: usize,
     ) -> Result<Suggestions<K>, Error> {
-        self.search = Search::start(self.word.as_bytes(), LIVE, options)?;
+        let mut before = [0u8; MAX_PHRASE_LEN];
+        let before = self.text_before_word(&mut before);
+        self.search = Search::start(self.word.as_bytes(), before, LIVE, Shape::Free, options)?;
         self.refine(options, steps)
     }
 
@@ -471,17 +474,12 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
                 capacity: MAX_WORD_LEN,
             });
         }
-        // 12-key entry does not blend in the user memory.
-        let options = &SearchOptions {
-            memory: None,
-            ..*options
-        };
-        let mut search = Search::<K>::start(self.word.as_bytes(), LIVE, options)?;
+        let shape = Shape::Keys { map, keys };
+        let mut search = Search::<K>::start(self.word.as_bytes(), &[], LIVE, shape, options)?;
         let root = Root {
             logits: self.live_logits,
             word: self.word.as_bytes(),
         };
-        let shape = Shape::Keys { map, keys };
         let run = search.run(
             &self.weights,
             &mut self.scratch,
@@ -495,6 +493,25 @@ impl<'b, W: Weights, const K: usize, const H: usize> Session<'b, W, K, H> {
         // The beam slots now hold this search's states.
         self.search = Search::default();
         run.map(|()| search.result(options))
+    }
+
+    /// The last bytes of the history before the current word (at most `out.len()`), in
+    /// `out`: the context of a phrase draft.
+    fn text_before_word<'o>(&self, out: &'o mut [u8]) -> &'o [u8] {
+        let end = self
+            .history
+            .len()
+            .saturating_sub(self.word.as_bytes().len());
+        let start = end.saturating_sub(out.len());
+        let mut n = 0;
+        for (o, b) in out
+            .iter_mut()
+            .zip(self.history.iter().skip(start).take(end - start))
+        {
+            *o = b;
+            n += 1;
+        }
+        out.get(..n).unwrap_or(&[])
     }
 
     /// The word typed since the last boundary.

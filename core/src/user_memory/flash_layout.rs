@@ -1,4 +1,8 @@
-//! The user memory in NOR flash, format version 1, byte by byte.
+//! The user memory in NOR flash, format version 2, byte by byte.
+//!
+//! Version 2 added the phrase records (variant 2) and split the keys below the header
+//! between words and phrases; the word and header records are the bytes of version 1, and
+//! a version 1 memory (words only) is read as it is.
 //!
 //! The memory lives in a range of whole flash pages (erase units) given to
 //! [`FlashStore`](super::FlashStore), managed as a key-value map by the `sequential-storage`
@@ -28,8 +32,10 @@
 //!
 //! ## Keys (2 bytes, little-endian `u16`)
 //! - [`HEADER_KEY`] (`0xFFFF`): the header record.
-//! - `0 ..= 0xFFFE`: the word record of that slot of the [`UserMemory`](super::UserMemory)
+//! - `0 ..= 0x7FFF`: the word record of that slot of the [`UserMemory`](super::UserMemory)
 //!   (so a memory holds at most [`MAX_STORED_WORDS`] words).
+//! - `0x8000 ..= 0xFFFE` ([`PHRASE_KEY_BASE`] + slot): the phrase record of that phrase slot
+//!   (at most [`MAX_STORED_PHRASES`] phrases).
 //!
 //! ## Records ([postcard](https://postcard.jamesmunns.com) 1.x wire format)
 //! One enum, so every item decodes with one type; integers are varints (`u16`, `u32`:
@@ -40,17 +46,20 @@
 //! |---|---|
 //! | 0, header | `format: u16` ([`FORMAT_VERSION`]), `generation: u32` |
 //! | 1, word | `generation: u32`, `text: bytes` (2 ..= 32 bytes of UTF-8, no word boundary), `count: u16` (≥ 1), `last_used: u32` |
+//! | 2, phrase (version 2) | `generation: u32`, `text: bytes` (3 ..= 48 bytes of UTF-8: words and the boundary bytes between them, starting and ending with a word byte, no `.`, `!`, `?`, `\n`, `\r`), `count: u16` (≥ 1), `last_used: u32` |
 //!
 //! ## Reading
-//! The generation is the header's (0 when there is none). The memory is the word records of
-//! that generation, each slot's last one, in slot order. A record that does not decode, a
-//! text that is no word, a count of 0, a word already read, or a slot at or past the
-//! memory's capacity is skipped; the words after a skipped slot move down one (and are
-//! written again at their new slots by the next save). A header of another format is an
-//! error ([`FlashProblem::Record`](crate::error::FlashProblem::Record)).
+//! The generation is the header's (0 when there is none). The memory is the word and phrase
+//! records of that generation, each slot's last one, in slot order. A record that does not
+//! decode, a text that is no word (no phrase), a count of 0, a text already read, a record
+//! under the other kind's keys, or a slot at or past the memory's capacity is skipped; the
+//! texts after a skipped slot move down one (and are written again at their new slots by
+//! the next save). A header of a format other than 1 or 2 is an error
+//! ([`FlashProblem::Record`](crate::error::FlashProblem::Record)).
 //!
 //! ## Writing
-//! - A learned word writes its slot's record (one item): that is the commit of that word.
+//! - A learned word writes its slot's record (one item): that is the commit of that word;
+//!   a learned phrase likewise. A save writes the changed words first, then the phrases.
 //!   Records are appended to space that reads as erased and are not read back: on flash
 //!   damaged by something other than the store and power cuts (stray bits in that space), a
 //!   record may be spoilt as it is written; the next load skips it.
@@ -60,8 +69,8 @@
 //!
 //! ```
 //! use inkling_core::user_memory::flash_layout::{HEADER_KEY, FORMAT_VERSION, max_item_bytes};
-//! assert_eq!((HEADER_KEY, FORMAT_VERSION), (0xFFFF, 1));
-//! assert!(max_item_bytes(4) <= 64);
+//! assert_eq!((HEADER_KEY, FORMAT_VERSION), (0xFFFF, 2));
+//! assert!(max_item_bytes(4) <= 80);
 //! ```
 
 use serde::{Deserialize, Serialize};
@@ -69,9 +78,23 @@ use serde::{Deserialize, Serialize};
 /// The format version written in the header record.
 ///
 /// ```
-/// assert_eq!(inkling_core::user_memory::flash_layout::FORMAT_VERSION, 1);
+/// assert_eq!(inkling_core::user_memory::flash_layout::FORMAT_VERSION, 2);
 /// ```
-pub const FORMAT_VERSION: u16 = 1;
+pub const FORMAT_VERSION: u16 = 2;
+
+/// The format versions a store reads: 1 (words only) and 2.
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::READABLE_VERSIONS, [1, 2]);
+/// ```
+pub const READABLE_VERSIONS: [u16; 2] = [1, 2];
+
+/// The key of phrase slot 0; phrase slot `s` has key `PHRASE_KEY_BASE + s`.
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::PHRASE_KEY_BASE, 0x8000);
+/// ```
+pub const PHRASE_KEY_BASE: u16 = 0x8000;
 
 /// The key of the header record.
 ///
@@ -80,53 +103,82 @@ pub const FORMAT_VERSION: u16 = 1;
 /// ```
 pub const HEADER_KEY: u16 = u16::MAX;
 
-/// The most words a memory kept in flash may hold (slots are keys below [`HEADER_KEY`]).
+/// The most words a memory kept in flash may hold (slots are keys below
+/// [`PHRASE_KEY_BASE`]).
 ///
 /// ```
-/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_STORED_WORDS, 65535);
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_STORED_WORDS, 32768);
 /// ```
-pub const MAX_STORED_WORDS: usize = HEADER_KEY as usize;
+pub const MAX_STORED_WORDS: usize = PHRASE_KEY_BASE as usize;
 
-/// The longest data of an item: a 2-byte key and a word record (variant 1 byte, generation
-/// 5, text 1 + 32, count 3, time 5).
+/// The most phrases a memory kept in flash may hold (keys from [`PHRASE_KEY_BASE`] to below
+/// [`HEADER_KEY`]).
 ///
 /// ```
-/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_DATA_BYTES, 49);
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_STORED_PHRASES, 32767);
 /// ```
-pub const MAX_DATA_BYTES: usize = 2 + 1 + 5 + 1 + crate::session::MAX_WORD_LEN + 3 + 5;
+pub const MAX_STORED_PHRASES: usize = (HEADER_KEY - PHRASE_KEY_BASE) as usize;
+
+/// The longest data of an item: a 2-byte key and a phrase record (variant 1 byte,
+/// generation 5, text 1 + 48, count 3, time 5).
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_DATA_BYTES, 65);
+/// ```
+pub const MAX_DATA_BYTES: usize = 2 + 1 + 5 + 1 + super::MAX_PHRASE_LEN + 3 + 5;
+
+/// The longest data of a word item: a 2-byte key and a word record (variant 1 byte,
+/// generation 5, text 1 + 32, count 3, time 5).
+///
+/// ```
+/// assert_eq!(inkling_core::user_memory::flash_layout::MAX_WORD_DATA_BYTES, 49);
+/// ```
+pub const MAX_WORD_DATA_BYTES: usize = 2 + 1 + 5 + 1 + crate::session::MAX_WORD_LEN + 3 + 5;
 
 /// The most flash bytes one item takes with a write size of `word` bytes: the 8-byte header
 /// and the data, each padded to whole words.
 ///
 /// ```
 /// use inkling_core::user_memory::flash_layout::max_item_bytes;
-/// assert_eq!(max_item_bytes(4), 8 + 52);
-/// assert_eq!(max_item_bytes(1), 8 + 49);
+/// assert_eq!(max_item_bytes(4), 8 + 68);
+/// assert_eq!(max_item_bytes(1), 8 + 65);
 /// ```
 pub const fn max_item_bytes(word: usize) -> usize {
-    let word = if word == 0 { 1 } else { word };
-    8usize.div_ceil(word) * word + MAX_DATA_BYTES.div_ceil(word) * word
+    item_bytes(MAX_DATA_BYTES, word)
 }
 
-/// Flash bytes a memory of `words` words needs in pages of `page` bytes with a write size
-/// of `word` bytes: room for every slot's record and the header at their largest, in pages
+/// Flash bytes of an item of `data` bytes of data with a write size of `word` bytes.
+const fn item_bytes(data: usize, word: usize) -> usize {
+    let word = if word == 0 { 1 } else { word };
+    8usize.div_ceil(word) * word + data.div_ceil(word) * word
+}
+
+/// Flash bytes a memory of `words` words and `phrases` phrases needs in pages of `page`
+/// bytes with a write size of `word` bytes: room for every slot's record and the header at
+/// the largest item (a word item's without phrases, a phrase item's with them), in pages
 /// less their two marker words, plus two spare pages for the store to move items into
 /// before it erases one (our margin; common practice, no source). 0 if a page cannot hold
 /// one item.
 ///
 /// ```
 /// use inkling_core::user_memory::flash_layout::flash_bytes_needed;
-/// // 256 words in 4 KB sectors with 4-byte writes: 257 items of 60 bytes, 68 to a page.
-/// assert_eq!(flash_bytes_needed(256, 4096, 4), (4 + 2) * 4096);
+/// // 256 words in 4 KB sectors with 4-byte writes: 257 items of at most 60 bytes, 68 to a
+/// // page; with 128 phrases, 385 items of at most 76 bytes, 53 to a page.
+/// assert_eq!(flash_bytes_needed(256, 0, 4096, 4), (4 + 2) * 4096);
+/// assert_eq!(flash_bytes_needed(256, 128, 4096, 4), (8 + 2) * 4096);
 /// ```
-pub const fn flash_bytes_needed(words: usize, page: usize, word: usize) -> usize {
-    let item = max_item_bytes(word);
+pub const fn flash_bytes_needed(words: usize, phrases: usize, page: usize, word: usize) -> usize {
+    let item = if phrases == 0 {
+        item_bytes(MAX_WORD_DATA_BYTES, word)
+    } else {
+        max_item_bytes(word)
+    };
     let usable = page.saturating_sub(2 * word);
     if usable < item {
         return 0;
     }
     let per_page = usable / item;
-    ((words + 1).div_ceil(per_page) + 2) * page
+    ((words + phrases + 1).div_ceil(per_page) + 2) * page
 }
 
 /// One record (see the [module docs](self)).
@@ -136,6 +188,13 @@ pub(crate) enum Record<'a> {
     Header { format: u16, generation: u32 },
     /// The word of one slot.
     Word {
+        generation: u32,
+        text: &'a [u8],
+        count: u16,
+        last_used: u32,
+    },
+    /// The phrase of one phrase slot (format version 2).
+    Phrase {
         generation: u32,
         text: &'a [u8],
         count: u16,
@@ -170,7 +229,7 @@ mod tests {
     fn records_encode_as_the_spec_says() {
         // postcard's wire format (postcard 1.x specification): enum variant as a varint,
         // u16/u32 as LEB128 varints, byte slices as a varint length and the bytes.
-        let mut buf = [0u8; 64];
+        let mut buf = [0u8; 80];
         let header = Record::Header {
             format: 1,
             generation: 300,
@@ -189,6 +248,22 @@ mod tests {
         let longest = Record::Word {
             generation: u32::MAX,
             text: &[b'a'; crate::session::MAX_WORD_LEN],
+            count: u16::MAX,
+            last_used: u32::MAX,
+        };
+        let n = postcard::to_slice(&longest, &mut buf).unwrap().len();
+        assert_eq!(2 + n, MAX_WORD_DATA_BYTES);
+        let phrase = Record::Phrase {
+            generation: 1,
+            text: b"a b",
+            count: 2,
+            last_used: 300,
+        };
+        let n = postcard::to_slice(&phrase, &mut buf).unwrap().len();
+        assert_eq!(&buf[..n], &[2, 1, 3, b'a', b' ', b'b', 2, 0xAC, 0x02]);
+        let longest = Record::Phrase {
+            generation: u32::MAX,
+            text: &[b'a'; super::super::MAX_PHRASE_LEN],
             count: u16::MAX,
             last_used: u32::MAX,
         };

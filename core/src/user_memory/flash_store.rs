@@ -7,8 +7,12 @@ use sequential_storage::cache::{Cache, Uncached};
 use sequential_storage::map::{MapConfig, MapStorage};
 
 use super::blocking_flash::{run_to_end, Blocking};
-use super::flash_layout::{Record, FORMAT_VERSION, HEADER_KEY, MAX_DATA_BYTES, MAX_STORED_WORDS};
-use super::learned_words::{is_learnable, LearnedWord, UserMemory};
+use super::flash_layout::{
+    Record, FORMAT_VERSION, HEADER_KEY, MAX_DATA_BYTES, MAX_STORED_PHRASES, MAX_STORED_WORDS,
+    PHRASE_KEY_BASE, READABLE_VERSIONS,
+};
+use super::learned_phrases::is_storable_phrase;
+use super::learned_words::{is_learnable, LearnedText, UserMemory};
 use crate::error::{Error, FlashProblem};
 
 /// The item buffer: the longest item's data rounded up to the largest write size the
@@ -23,14 +27,16 @@ type Map<S> = MapStorage<u16, Blocking<S>, Cache<Uncached, Uncached, Uncached, u
 ///
 /// ```
 /// use inkling_core::user_memory::LoadReport;
-/// let report = LoadReport { words: 3, skipped: 0 };
+/// let report = LoadReport { words: 3, phrases: 0, skipped: 0 };
 /// assert_eq!(report.words, 3);
 /// ```
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct LoadReport {
     /// Words read into the memory.
     pub words: usize,
-    /// Word records of the live generation skipped (see the
+    /// Phrases read into the memory.
+    pub phrases: usize,
+    /// Word and phrase records of the live generation skipped (see the
     /// [layout's reading rules](super::flash_layout#reading)).
     pub skipped: usize,
 }
@@ -123,9 +129,9 @@ impl<S: NorFlash> FlashStore<S> {
     /// assert_eq!(report.words, 0);
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
-    pub fn load<const N: usize>(
+    pub fn load<const N: usize, const P: usize>(
         &mut self,
-        memory: &mut UserMemory<N>,
+        memory: &mut UserMemory<N, P>,
     ) -> Result<LoadReport, Error> {
         memory.clear();
         memory.cleared = false;
@@ -139,9 +145,9 @@ impl<S: NorFlash> FlashStore<S> {
         read
     }
 
-    fn read_into<const N: usize>(
+    fn read_into<const N: usize, const P: usize>(
         &mut self,
-        memory: &mut UserMemory<N>,
+        memory: &mut UserMemory<N, P>,
     ) -> Result<LoadReport, Error> {
         let header = run_to_end(
             self.map
@@ -150,17 +156,17 @@ impl<S: NorFlash> FlashStore<S> {
         .map_err(flash_problem)?;
         self.generation = match header {
             None => 0,
-            Some(Record::Header { format, generation }) if format == FORMAT_VERSION => generation,
+            Some(Record::Header { format, generation }) if READABLE_VERSIONS.contains(&format) => {
+                generation
+            }
             Some(_) => {
                 return Err(Error::MemoryFlash {
                     problem: FlashProblem::Record,
                 })
             }
         };
-        let empty = LearnedWord::new(&[], 0, 0);
-        let slots = &mut memory.words;
-        slots.clear();
-        while slots.push(empty).is_ok() {}
+        fill_empty(&mut memory.words);
+        fill_empty(&mut memory.phrases);
         let mut skipped = 0usize;
         let mut items =
             run_to_end(self.map.fetch_all_items(&mut self.buffer.0))?.map_err(flash_problem)?;
@@ -176,56 +182,56 @@ impl<S: NorFlash> FlashStore<S> {
                 }
                 Err(e) => return Err(flash_problem(e)),
             };
-            let Record::Word {
-                generation,
-                text,
-                count,
-                last_used,
-            } = record
-            else {
-                continue;
-            };
-            if generation != self.generation {
-                continue;
-            }
-            match slots.get_mut(usize::from(key)) {
-                Some(slot) if is_learnable(text) && count > 0 => {
-                    *slot = LearnedWord::new(text, count, last_used);
-                    slot.saved = true;
+            let placed = match record {
+                Record::Header { .. } => continue,
+                Record::Word { generation, .. } | Record::Phrase { generation, .. }
+                    if generation != self.generation =>
+                {
+                    continue
                 }
-                _ => skipped += 1,
-            }
-        }
-        // Close the gaps: a word that moves to another slot is written there by the next save.
-        let mut kept = 0usize;
-        for read in 0..slots.len() {
-            let Some(word) = slots.get(read).copied() else {
-                break;
+                Record::Word {
+                    text,
+                    count,
+                    last_used,
+                    ..
+                } => {
+                    key < PHRASE_KEY_BASE
+                        && is_learnable(text)
+                        && place(&mut memory.words, key, text, count, last_used)
+                }
+                Record::Phrase {
+                    text,
+                    count,
+                    last_used,
+                    ..
+                } => {
+                    let slot = key.wrapping_sub(PHRASE_KEY_BASE);
+                    key >= PHRASE_KEY_BASE
+                        && is_storable_phrase(text)
+                        && place(&mut memory.phrases, slot, text, count, last_used)
+                }
             };
-            let seen = slots
-                .get(..kept)
-                .is_some_and(|k| k.iter().any(|w| w.text() == word.text()));
-            if word.count() == 0 {
-                continue;
-            }
-            if seen {
+            if !placed {
                 skipped += 1;
-                continue;
             }
-            if let Some(slot) = slots.get_mut(kept) {
-                *slot = word;
-                slot.saved = word.saved && read == kept;
-            }
-            kept += 1;
         }
-        slots.truncate(kept);
-        memory.clock = slots
+        skipped += close_gaps(&mut memory.words);
+        skipped += close_gaps(&mut memory.phrases);
+        memory.clock = memory
+            .words
             .iter()
             .map(|w| w.last_used().saturating_add(1))
+            .chain(
+                memory
+                    .phrases
+                    .iter()
+                    .map(|p| p.last_used().saturating_add(1)),
+            )
             .max()
             .unwrap_or(0);
         Ok(LoadReport {
-            words: kept,
+            words: memory.words.len(),
+            phrases: memory.phrases.len(),
             skipped,
         })
     }
@@ -247,12 +253,19 @@ impl<S: NorFlash> FlashStore<S> {
     /// assert_eq!(store.save(&mut memory)?, 0); // nothing new
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
-    pub fn save<const N: usize>(&mut self, memory: &mut UserMemory<N>) -> Result<usize, Error> {
+    pub fn save<const N: usize, const P: usize>(
+        &mut self,
+        memory: &mut UserMemory<N, P>,
+    ) -> Result<usize, Error> {
         const {
             assert!(
                 N <= MAX_STORED_WORDS,
-                "a memory kept in flash holds at most 65535 words"
-            )
+                "a memory kept in flash holds at most 32768 words"
+            );
+            assert!(
+                P <= MAX_STORED_PHRASES,
+                "a memory kept in flash holds at most 32767 phrases"
+            );
         };
         let mut written = 0;
         if memory.cleared || !self.attached {
@@ -260,25 +273,39 @@ impl<S: NorFlash> FlashStore<S> {
             written += 1;
             memory.cleared = false;
             self.attached = true;
-            for word in memory.words.iter_mut() {
-                word.saved = false;
+            memory.words.iter_mut().for_each(|w| w.saved = false);
+            memory.phrases.iter_mut().for_each(|p| p.saved = false);
+        }
+        let generation = self.generation;
+        for (slot, word) in memory.words.iter_mut().enumerate() {
+            if !word.saved {
+                let record = Record::Word {
+                    generation,
+                    text: word.text(),
+                    count: word.count(),
+                    last_used: word.last_used(),
+                };
+                self.store(u16::try_from(slot).unwrap_or(HEADER_KEY), &record)?;
+                word.saved = true;
+                written += 1;
             }
         }
-        for (slot, word) in memory.words.iter_mut().enumerate() {
-            if word.saved {
-                continue;
+        for (slot, phrase) in memory.phrases.iter_mut().enumerate() {
+            if !phrase.saved {
+                let record = Record::Phrase {
+                    generation,
+                    text: phrase.text(),
+                    count: phrase.count(),
+                    last_used: phrase.last_used(),
+                };
+                let key = u16::try_from(slot)
+                    .ok()
+                    .and_then(|s| PHRASE_KEY_BASE.checked_add(s))
+                    .unwrap_or(HEADER_KEY);
+                self.store(key, &record)?;
+                phrase.saved = true;
+                written += 1;
             }
-            let record = Record::Word {
-                generation: self.generation,
-                text: word.text(),
-                count: word.count(),
-                last_used: word.last_used(),
-            };
-            let key = u16::try_from(slot).unwrap_or(HEADER_KEY);
-            run_to_end(self.map.store_item(&mut self.buffer.0, &key, &record))?
-                .map_err(flash_problem)?;
-            word.saved = true;
-            written += 1;
         }
         Ok(written)
     }
@@ -300,7 +327,10 @@ impl<S: NorFlash> FlashStore<S> {
     /// assert!(memory.is_empty() && after.is_empty());
     /// # Ok::<(), inkling_core::Error>(())
     /// ```
-    pub fn clear<const N: usize>(&mut self, memory: &mut UserMemory<N>) -> Result<(), Error> {
+    pub fn clear<const N: usize, const P: usize>(
+        &mut self,
+        memory: &mut UserMemory<N, P>,
+    ) -> Result<(), Error> {
         memory.clear();
         self.save(memory).map(|_| ())
     }
@@ -317,6 +347,11 @@ impl<S: NorFlash> FlashStore<S> {
     /// ```
     pub fn into_flash(self) -> S {
         self.map.destroy().0 .0
+    }
+
+    /// Writes one record under `key`.
+    fn store(&mut self, key: u16, record: &Record<'_>) -> Result<(), Error> {
+        run_to_end(self.map.store_item(&mut self.buffer.0, &key, record))?.map_err(flash_problem)
     }
 
     /// Writes a header of the next generation (the words before it are dropped).
@@ -354,4 +389,60 @@ fn flash_problem<E>(error: sequential_storage::Error<E>) -> Error {
         _ => FlashProblem::Corrupted,
     };
     Error::MemoryFlash { problem }
+}
+
+/// Fills `slots` to its capacity with empty entries (count 0), for records to land in.
+fn fill_empty<const L: usize, const C: usize>(slots: &mut heapless::Vec<LearnedText<L>, C>) {
+    slots.clear();
+    while slots.push(LearnedText::new(&[], 0, 0)).is_ok() {}
+}
+
+/// Puts a record read from flash in slot `slot`; `false` if there is no such slot or the
+/// count is 0.
+fn place<const L: usize, const C: usize>(
+    slots: &mut heapless::Vec<LearnedText<L>, C>,
+    slot: u16,
+    text: &[u8],
+    count: u16,
+    last_used: u32,
+) -> bool {
+    match slots.get_mut(usize::from(slot)) {
+        Some(entry) if count > 0 && text.len() <= L => {
+            *entry = LearnedText::new(text, count, last_used);
+            entry.saved = true;
+            true
+        }
+        _ => false,
+    }
+}
+
+/// Closes the gaps left by slots no record filled (and drops a text already read); a text
+/// that moves to another slot is written there by the next save. Returns the texts dropped.
+fn close_gaps<const L: usize, const C: usize>(
+    slots: &mut heapless::Vec<LearnedText<L>, C>,
+) -> usize {
+    let mut kept = 0usize;
+    let mut dropped = 0usize;
+    for read in 0..slots.len() {
+        let Some(entry) = slots.get(read).copied() else {
+            break;
+        };
+        if entry.count() == 0 {
+            continue;
+        }
+        let seen = slots
+            .get(..kept)
+            .is_some_and(|k| k.iter().any(|w| w.text() == entry.text()));
+        if seen {
+            dropped += 1;
+            continue;
+        }
+        if let Some(slot) = slots.get_mut(kept) {
+            *slot = entry;
+            slot.saved = entry.saved && read == kept;
+        }
+        kept += 1;
+    }
+    slots.truncate(kept);
+    dropped
 }

@@ -4,6 +4,7 @@
 use crate::session::word_boundary::is_boundary;
 use crate::session::word_list::WordList;
 use crate::session::MAX_WORD_LEN;
+use crate::user_memory::learned_phrases::{phrase_ending, LearnedPhrase};
 
 /// The shortest word the memory keeps, in bytes: a one-byte word saves no keystroke when
 /// offered (taking it costs the key that typing it costs).
@@ -24,26 +25,41 @@ pub const MIN_LEARNED_LEN: usize = 2;
 /// let word = &memory.words()[0];
 /// assert_eq!((word.text(), word.count(), word.last_used()), (&b"Tamsel"[..], 1, 0));
 /// ```
+pub type LearnedWord = LearnedText<MAX_WORD_LEN>;
+
+/// A text the memory keeps, of at most `L` bytes, with how often it was learned and when
+/// last: a word ([`LearnedWord`]) or a phrase
+/// ([`LearnedPhrase`]).
+///
+/// ```
+/// use inkling_core::user_memory::UserMemory;
+/// use inkling_core::session::WordList;
+/// let mut memory = UserMemory::<8, 4>::new();
+/// memory.learn_text(b"walked down with Greta. walked down with Greta.", &WordList::EMPTY);
+/// // A phrase ends at each word: "walked down", "walked down with", then this one.
+/// let phrase = &memory.phrases()[2];
+/// assert_eq!((phrase.text(), phrase.count()), (&b"walked down with Greta"[..], 2));
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct LearnedWord {
-    bytes: [u8; MAX_WORD_LEN],
+pub struct LearnedText<const L: usize> {
+    bytes: [u8; L],
     len: u8,
     count: u16,
     last_used: u32,
-    /// Whether the flash store holds this word as it is now.
+    /// Whether the flash store holds this text as it is now.
     pub(crate) saved: bool,
 }
 
-impl LearnedWord {
-    /// A word of `text` (whose length the caller checked), counted `count` times, last at
+impl<const L: usize> LearnedText<L> {
+    /// A text of `text` (whose length the caller checked), counted `count` times, last at
     /// `last_used`, not yet saved.
     pub(crate) fn new(text: &[u8], count: u16, last_used: u32) -> Self {
-        let mut bytes = [0u8; MAX_WORD_LEN];
-        let len = text.len().min(MAX_WORD_LEN);
+        let mut bytes = [0u8; L];
+        let len = text.len().min(L).min(usize::from(u8::MAX));
         for (b, &t) in bytes.iter_mut().zip(text) {
             *b = t;
         }
-        LearnedWord {
+        LearnedText {
             bytes,
             len: len as u8,
             count,
@@ -52,7 +68,7 @@ impl LearnedWord {
         }
     }
 
-    /// The word's bytes.
+    /// The text's bytes.
     ///
     /// ```
     /// # use inkling_core::{user_memory::UserMemory, session::WordList};
@@ -64,7 +80,7 @@ impl LearnedWord {
         self.bytes.get(..self.len as usize).unwrap_or(&[])
     }
 
-    /// How many times the word was learned (saturates at `u16::MAX`).
+    /// How many times the text was learned (saturates at `u16::MAX`).
     ///
     /// ```
     /// # use inkling_core::{user_memory::UserMemory, session::WordList};
@@ -77,7 +93,7 @@ impl LearnedWord {
         self.count
     }
 
-    /// The memory's clock when the word was last learned: the number of words learned
+    /// The memory's clock when the text was last learned: the number of words learned
     /// before it (see [`UserMemory::clock`]).
     ///
     /// ```
@@ -132,24 +148,32 @@ pub enum Learned {
 }
 
 /// The words the user has typed, at most `N`, each with its count and the time it was last
-/// typed. The firmware chooses `N`; the memory takes
-/// [`UserMemory::<N>::RAM_BYTES`](UserMemory::RAM_BYTES) of RAM and never more.
+/// typed, and the phrases they typed, at most `P` (none unless the firmware asks for them).
+/// The firmware chooses `N` and `P`; the memory takes
+/// [`UserMemory::<N, P>::RAM_BYTES`](UserMemory::RAM_BYTES) of RAM and never more.
 ///
 /// - **Learning.** [`learn`](UserMemory::learn) adds a word (count 1) or counts one already
 ///   there (words are compared byte for byte: "Hut" and "hut" are two words). Words of the
 ///   deny list, and what is no word (see [`Learned::NotAWord`]), are never stored.
-/// - **Eviction.** When all `N` slots are taken, a new word replaces the least recently
-///   used one (the smallest [`last_used`](LearnedWord::last_used); the first slot among
-///   equals), whatever its count: the memory is a cache of the user's recent words.
-/// - **Clock.** Each learned word advances the clock by one; at `u32::MAX` it stops, and
-///   from then on eviction picks the first of the words last used at that time.
-/// - **Clearing** is one call, [`clear`](UserMemory::clear) (and
+/// - **Phrases.** [`learn_phrase`](UserMemory::learn_phrase) keeps the last words typed as
+///   one phrase (see [`learned_phrases`](crate::user_memory::learned_phrases) for which
+///   words), counted the same way; a phrase never holds a word of the deny list. A search
+///   drafts the rest of a phrase whose start the user is typing and lets the model verify it
+///   (see [`draft`](crate::session::draft)).
+/// - **Eviction.** When all `N` word slots are taken, a new word replaces the least recently
+///   used one (the smallest [`last_used`](LearnedText::last_used); the first slot among
+///   equals), whatever its count: the memory is a cache of the user's recent words. Phrases
+///   are replaced the same way among the `P` phrase slots.
+/// - **Clock.** Each learned word advances the clock by one (a phrase takes the time of its
+///   last word); at `u32::MAX` it stops, and from then on eviction picks the first of the
+///   texts last used at that time.
+/// - **Clearing** is one call, [`clear`](UserMemory::clear), for words and phrases (and
 ///   [`FlashStore::clear`](crate::user_memory::FlashStore::clear) for the copy in flash).
 /// - **Flash.** [`FlashStore`](crate::user_memory::FlashStore) keeps the memory across
 ///   reboots.
 ///
-/// The memory holds what the user typed: names, places, perhaps codes. Clear it when the
-/// device changes hands.
+/// The memory holds what the user typed: names, places, perhaps codes, and with phrases
+/// whole stretches of their messages. Clear it when the device changes hands.
 ///
 /// ```
 /// use inkling_core::user_memory::UserMemory;
@@ -164,26 +188,28 @@ pub enum Learned {
 /// assert!(memory.is_empty());
 /// ```
 #[derive(Debug, Clone)]
-pub struct UserMemory<const N: usize> {
+pub struct UserMemory<const N: usize, const P: usize = 0> {
     pub(crate) words: heapless::Vec<LearnedWord, N>,
+    pub(crate) phrases: heapless::Vec<LearnedPhrase, P>,
     pub(crate) clock: u32,
     /// Whether the memory was cleared since the flash store last saw it.
     pub(crate) cleared: bool,
 }
 
-impl<const N: usize> Default for UserMemory<N> {
+impl<const N: usize, const P: usize> Default for UserMemory<N, P> {
     fn default() -> Self {
         Self::new()
     }
 }
 
-impl<const N: usize> UserMemory<N> {
-    /// Bytes of RAM the memory takes: `N` words of [`MAX_WORD_LEN`]
-    /// bytes with their counts and times, and a few words of bookkeeping.
+impl<const N: usize, const P: usize> UserMemory<N, P> {
+    /// Bytes of RAM the memory takes: `N` words of [`MAX_WORD_LEN`] bytes and `P` phrases of
+    /// [`MAX_PHRASE_LEN`](crate::user_memory::MAX_PHRASE_LEN) bytes with their counts and times, and a few words of bookkeeping.
     ///
     /// ```
     /// use inkling_core::user_memory::UserMemory;
     /// assert!(UserMemory::<256>::RAM_BYTES <= 256 * 44 + 32);
+    /// assert!(UserMemory::<256, 64>::RAM_BYTES <= 256 * 44 + 64 * 60 + 32);
     /// ```
     pub const RAM_BYTES: usize = core::mem::size_of::<Self>();
 
@@ -195,6 +221,7 @@ impl<const N: usize> UserMemory<N> {
     pub const fn new() -> Self {
         UserMemory {
             words: heapless::Vec::new(),
+            phrases: heapless::Vec::new(),
             clock: 0,
             cleared: false,
         }
@@ -218,42 +245,33 @@ impl<const N: usize> UserMemory<N> {
         }
         let now = self.clock;
         self.clock = self.clock.saturating_add(1);
-        if let Some((slot, entry)) = self
-            .words
-            .iter_mut()
-            .enumerate()
-            .find(|(_, w)| w.text() == word)
-        {
-            entry.count = entry.count.saturating_add(1);
-            entry.last_used = now;
-            entry.saved = false;
-            return Learned::Counted { slot };
-        }
-        let fresh = LearnedWord::new(word, 1, now);
-        if self.words.push(fresh).is_ok() {
-            return Learned::Added {
-                slot: self.words.len() - 1,
-            };
-        }
-        let oldest = self
-            .words
-            .iter()
-            .enumerate()
-            .min_by_key(|(_, w)| w.last_used)
-            .map(|(slot, _)| slot);
-        match oldest.and_then(|slot| self.words.get_mut(slot).map(|w| (slot, w))) {
-            Some((slot, entry)) => {
-                *entry = fresh;
-                Learned::Replaced { slot }
-            }
-            // Only a memory of no slots at all (`N == 0`) has none to replace.
-            None => Learned::NotAWord,
+        remember(&mut self.words, word, now)
+    }
+
+    /// Learns the phrase that ends at the end of `text`, the text typed so far up to the
+    /// word just ended (see [`phrase_ending`] for which words it takes): [`Learned::Denied`]
+    /// if the last word is on the deny list, [`Learned::NotAWord`] if no phrase ends there
+    /// (or the memory keeps no phrases, `P == 0`). The clock does not move.
+    ///
+    /// ```
+    /// use inkling_core::user_memory::{Learned, UserMemory};
+    /// use inkling_core::session::WordList;
+    /// let mut memory = UserMemory::<8, 2>::new();
+    /// let text = b"Rope bag checked: 60 m rope";
+    /// assert_eq!(memory.learn_phrase(text, &WordList::EMPTY), Learned::Added { slot: 0 });
+    /// assert_eq!(memory.phrases()[0].text(), b"checked: 60 m rope");
+    /// assert_eq!(memory.learn_phrase(b"Rope", &WordList::EMPTY), Learned::NotAWord);
+    /// ```
+    pub fn learn_phrase(&mut self, text: &[u8], deny: &WordList<'_>) -> Learned {
+        match phrase_ending(text, deny) {
+            Ok(phrase) => remember(&mut self.phrases, phrase, self.clock.saturating_sub(1)),
+            Err(outcome) => outcome,
         }
     }
 
     /// Learns every word of `text` in order (split at word boundaries, see
-    /// [`is_boundary`]), e.g. a message when it is sent; returns
-    /// how many were stored.
+    /// [`is_boundary`]), and after each the phrase that ends with it, e.g. a message when
+    /// it is sent; returns how many words were stored.
     ///
     /// ```
     /// # use inkling_core::{user_memory::UserMemory, session::WordList};
@@ -261,29 +279,43 @@ impl<const N: usize> UserMemory<N> {
     /// assert_eq!(memory.learn_text(b"Copy that, Idris. Over.", &WordList::EMPTY), 4);
     /// ```
     pub fn learn_text(&mut self, text: &[u8], deny: &WordList<'_>) -> usize {
-        text.split(|&b| is_boundary(b))
-            .filter(|word| {
-                matches!(
-                    self.learn(word, deny),
-                    Learned::Added { .. } | Learned::Replaced { .. } | Learned::Counted { .. }
-                )
-            })
-            .count()
+        let mut stored = 0;
+        let mut start = 0;
+        for end in 0..=text.len() {
+            if text.get(end).is_some_and(|&b| !is_boundary(b)) {
+                continue;
+            }
+            let word = text.get(start..end).unwrap_or(&[]);
+            start = end + 1;
+            if word.is_empty() {
+                continue;
+            }
+            if matches!(
+                self.learn(word, deny),
+                Learned::Added { .. } | Learned::Replaced { .. } | Learned::Counted { .. }
+            ) {
+                stored += 1;
+            }
+            self.learn_phrase(text.get(..end).unwrap_or(&[]), deny);
+        }
+        stored
     }
 
-    /// Forgets every word (the copy in flash with the next
+    /// Forgets every word and phrase (the copy in flash with the next
     /// [`FlashStore::save`](crate::user_memory::FlashStore::save), or at once with
     /// [`FlashStore::clear`](crate::user_memory::FlashStore::clear)).
     ///
     /// ```
     /// # use inkling_core::{user_memory::UserMemory, session::WordList};
-    /// let mut memory = UserMemory::<8>::new();
-    /// memory.learn(b"secret", &WordList::EMPTY);
+    /// let mut memory = UserMemory::<8, 2>::new();
+    /// memory.learn_text(b"secret code", &WordList::EMPTY);
     /// memory.clear();
     /// assert_eq!(memory.count_of(b"secret"), 0);
+    /// assert!(memory.phrases().is_empty());
     /// ```
     pub fn clear(&mut self) {
         self.words.clear();
+        self.phrases.clear();
         self.clock = 0;
         self.cleared = true;
     }
@@ -298,6 +330,18 @@ impl<const N: usize> UserMemory<N> {
     /// ```
     pub fn words(&self) -> &[LearnedWord] {
         &self.words
+    }
+
+    /// The phrases, in slot order.
+    ///
+    /// ```
+    /// # use inkling_core::{user_memory::UserMemory, session::WordList};
+    /// let mut memory = UserMemory::<8, 4>::new();
+    /// memory.learn_text(b"thick fog", &WordList::EMPTY);
+    /// assert_eq!(memory.phrases()[0].text(), b"thick fog");
+    /// ```
+    pub fn phrases(&self) -> &[LearnedPhrase] {
+        &self.phrases
     }
 
     /// How many times `word` was learned (0 if it is not in the memory).
@@ -321,13 +365,13 @@ impl<const N: usize> UserMemory<N> {
         self.words.len()
     }
 
-    /// Whether the memory holds no word.
+    /// Whether the memory holds no word and no phrase.
     ///
     /// ```
     /// assert!(inkling_core::user_memory::UserMemory::<8>::new().is_empty());
     /// ```
     pub fn is_empty(&self) -> bool {
-        self.words.is_empty()
+        self.words.is_empty() && self.phrases.is_empty()
     }
 
     /// Words learned so far (counting repeats), the time the next word will get; it stops
@@ -344,22 +388,59 @@ impl<const N: usize> UserMemory<N> {
     }
 }
 
-/// Bytes of RAM a [`UserMemory`] of `words` words takes, for a size known only at run time
-/// (equal to [`UserMemory::<N>::RAM_BYTES`](UserMemory::RAM_BYTES) for `N = words`).
+/// Learns `text` into `list` at time `now`: counts it if there, else adds it, replacing the
+/// least recently used when the list is full (the first among equals).
+fn remember<const L: usize, const C: usize>(
+    list: &mut heapless::Vec<LearnedText<L>, C>,
+    text: &[u8],
+    now: u32,
+) -> Learned {
+    if let Some((slot, entry)) = list.iter_mut().enumerate().find(|(_, w)| w.text() == text) {
+        entry.count = entry.count.saturating_add(1);
+        entry.last_used = now;
+        entry.saved = false;
+        return Learned::Counted { slot };
+    }
+    let fresh = LearnedText::new(text, 1, now);
+    if list.push(fresh).is_ok() {
+        return Learned::Added {
+            slot: list.len() - 1,
+        };
+    }
+    let oldest = list
+        .iter()
+        .enumerate()
+        .min_by_key(|(_, w)| w.last_used)
+        .map(|(slot, _)| slot);
+    match oldest.and_then(|slot| list.get_mut(slot).map(|w| (slot, w))) {
+        Some((slot, entry)) => {
+            *entry = fresh;
+            Learned::Replaced { slot }
+        }
+        // Only a list of no slots at all (`C == 0`) has none to replace.
+        None => Learned::NotAWord,
+    }
+}
+
+/// Bytes of RAM a [`UserMemory`] of `words` words and `phrases` phrases takes, for sizes
+/// known only at run time (equal to
+/// [`UserMemory::<N, P>::RAM_BYTES`](UserMemory::RAM_BYTES) for `N = words`, `P = phrases`).
 ///
 /// ```
 /// use inkling_core::user_memory::{learned_words::ram_bytes_for, UserMemory};
-/// assert_eq!(ram_bytes_for(256), UserMemory::<256>::RAM_BYTES);
+/// assert_eq!(ram_bytes_for(256, 0), UserMemory::<256>::RAM_BYTES);
+/// assert_eq!(ram_bytes_for(256, 64), UserMemory::<256, 64>::RAM_BYTES);
 /// ```
-pub const fn ram_bytes_for(words: usize) -> usize {
-    let align = core::mem::align_of::<UserMemory<0>>();
-    let unaligned =
-        core::mem::size_of::<UserMemory<0>>() + words * core::mem::size_of::<LearnedWord>();
+pub const fn ram_bytes_for(words: usize, phrases: usize) -> usize {
+    let align = core::mem::align_of::<UserMemory<0, 0>>();
+    let unaligned = core::mem::size_of::<UserMemory<0, 0>>()
+        + words * core::mem::size_of::<LearnedWord>()
+        + phrases * core::mem::size_of::<LearnedPhrase>();
     unaligned.div_ceil(align) * align
 }
 
 /// The count of `word` among `words` (0 if absent).
-pub(crate) fn count_in(words: &[LearnedWord], word: &[u8]) -> u16 {
+pub(crate) fn count_in<const L: usize>(words: &[LearnedText<L>], word: &[u8]) -> u16 {
     words
         .iter()
         .find(|w| w.text() == word)
@@ -428,12 +509,23 @@ mod tests {
     #[test]
     fn the_ram_formula_is_the_size_of_the_type() {
         // The compiler's layout (core::mem::size_of) is the reference.
-        assert_eq!(ram_bytes_for(0), core::mem::size_of::<UserMemory<0>>());
-        assert_eq!(ram_bytes_for(1), core::mem::size_of::<UserMemory<1>>());
-        assert_eq!(ram_bytes_for(7), core::mem::size_of::<UserMemory<7>>());
-        assert_eq!(ram_bytes_for(128), core::mem::size_of::<UserMemory<128>>());
+        assert_eq!(ram_bytes_for(0, 0), core::mem::size_of::<UserMemory<0>>());
         assert_eq!(
-            ram_bytes_for(1000),
+            ram_bytes_for(3, 5),
+            core::mem::size_of::<UserMemory<3, 5>>()
+        );
+        assert_eq!(
+            ram_bytes_for(0, 64),
+            core::mem::size_of::<UserMemory<0, 64>>()
+        );
+        assert_eq!(ram_bytes_for(1, 0), core::mem::size_of::<UserMemory<1>>());
+        assert_eq!(ram_bytes_for(7, 0), core::mem::size_of::<UserMemory<7>>());
+        assert_eq!(
+            ram_bytes_for(128, 0),
+            core::mem::size_of::<UserMemory<128>>()
+        );
+        assert_eq!(
+            ram_bytes_for(1000, 0),
             core::mem::size_of::<UserMemory<1000>>()
         );
     }

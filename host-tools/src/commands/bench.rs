@@ -4,9 +4,11 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use inkling_core::engine::recurrence::prefill;
+use inkling_core::engine::recurrence::{prefill, prefill_checked, step};
 use inkling_core::engine::weights::Weights;
+use inkling_core::session::draft::in_top_k;
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
+use inkling_core::user_memory::cache_blend::DEFAULT_DRAFT_TOP_K;
 use inkling_core::Scratch;
 
 use super::suggest::MAX_COUNT;
@@ -121,6 +123,44 @@ fn prefill_microseconds(weights: &dyn Weights, n: usize, chunk: usize) -> Spread
     Spread::of(times)
 }
 
+/// Microseconds per drafted byte verified (its logits computed and the top-k rule applied
+/// to the next drafted byte), per run: `chunked` in passes of `chunk` bytes through
+/// `prefill_checked`, else one `step` per byte. Every byte is checked (none stops the pass).
+fn verify_microseconds(weights: &dyn Weights, n: usize, chunk: usize, chunked: bool) -> Spread {
+    let d = *weights.dims();
+    let text = bench_text(n + 1);
+    let times: Vec<f64> = (0..REPEATS)
+        .map(|_| {
+            let mut state = vec![0.0; d.state_len()];
+            let mut work = vec![0.0; d.chunk_work_len(chunk)];
+            let mut act = vec![0; d.chunk_act_len(chunk)];
+            let mut accepted = 0usize;
+            let mut check = |i: usize, logits: &[f32]| {
+                accepted += usize::from(in_top_k(logits, text[i + 1], DEFAULT_DRAFT_TOP_K));
+                true
+            };
+            let start = Instant::now();
+            if chunked {
+                if let Ok(mut scratch) = Scratch::new(&d, &mut work, &mut act) {
+                    let _ =
+                        prefill_checked(weights, &mut state[..], &mut scratch, &text[..n], check);
+                }
+            } else if let Ok(mut scratch) =
+                Scratch::new(&d, &mut work[..d.work_len()], &mut act[..d.act_len()])
+            {
+                for (i, &b) in text[..n].iter().enumerate() {
+                    if let Ok(logits) = step(weights, &mut state, &mut scratch, b) {
+                        check(i, logits);
+                    }
+                }
+            }
+            std::hint::black_box(accepted);
+            1e6 * start.elapsed().as_secs_f64() / n as f64
+        })
+        .collect();
+    Spread::of(times)
+}
+
 /// Keystrokes timed for the latency figure: a scenario message typed key by key.
 const KEYSTROKE_TEXT: &[u8] = b"Supplies reached the upper hut before the rain. ";
 
@@ -175,6 +215,11 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
     let step_us = model.with_weights(|w| step_microseconds(w, args.bytes));
     let prefill_us = model.with_weights(|w| prefill_microseconds(w, args.bytes, PREFILL_CHUNK));
     let keystroke_ms = model.with_weights(|w| keystroke_milliseconds(w, args.count))?;
+    let verify_chunked_us =
+        model.with_weights(|w| verify_microseconds(w, args.bytes, PREFILL_CHUNK, true));
+    let verify_stepped_us =
+        model.with_weights(|w| verify_microseconds(w, args.bytes, PREFILL_CHUNK, false));
+    let verify_ratio = verify_chunked_us.median / verify_stepped_us.median;
     let (rate, prefill_rate) = (1e6 / step_us.median, 1e6 / prefill_us.median);
     let figure = |name: &str| figures.as_ref().and_then(|f| f.get(name).copied());
     let other = against.map(|f| {
@@ -192,6 +237,11 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
             "step_microseconds_spread": step_us,
             "prefill_microseconds_per_byte_spread": prefill_us,
             "keystroke_milliseconds_spread": keystroke_ms,
+            "draft_verify_microseconds_per_byte": verify_chunked_us.median,
+            "draft_verify_stepped_microseconds_per_byte": verify_stepped_us.median,
+            "draft_verify_cost_per_byte_vs_step": verify_ratio,
+            "draft_verify_microseconds_per_byte_spread": verify_chunked_us,
+            "draft_verify_stepped_microseconds_per_byte_spread": verify_stepped_us,
         });
         if figures.is_some() {
             v["firmware"] = serde_json::json!({
@@ -219,6 +269,13 @@ pub fn run(args: &BenchArgs) -> Result<(), HostError> {
             "prefill in passes of {PREFILL_CHUNK} bytes: {prefill_rate:.0} bytes/s ({:.2}× the cost per byte of single steps); µs per byte {}",
             rate / prefill_rate,
             prefill_us.show(2)
+        );
+        println!(
+            "phrase draft verified in passes of {PREFILL_CHUNK} bytes, logits at every byte: \
+             {:.2}× the cost per byte of stepping with logits; µs per byte {} (stepped {})",
+            verify_ratio,
+            verify_chunked_us.show(2),
+            verify_stepped_us.show(2)
         );
         println!(
             "keystroke with {} suggestions (mean over {} keys): ms {}",

@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 
 use indicatif::{ProgressBar, ProgressStyle};
 use inkling_core::session::{DEFAULT_MARGIN, DEFAULT_MAX_STEPS};
-use inkling_core::user_memory::DEFAULT_CACHE_WEIGHT;
+use inkling_core::user_memory::{cache_blend::DEFAULT_DRAFT_TOP_K, DEFAULT_CACHE_WEIGHT};
 
 use inkling_core::session::{SearchOptions, WordFilter, WordList};
 
@@ -23,7 +23,9 @@ use crate::compressors::{self, YARDSTICKS};
 use crate::error::HostError;
 use crate::file_kind::{check, Wanted};
 use crate::keystroke_savings::simulation::whole_words;
-use crate::keystroke_savings::{compare, keypad_entry, Comparison, FrequencyBaseline, KeypadCount};
+use crate::keystroke_savings::{
+    compare, keypad_entry, Comparison, FrequencyBaseline, KeypadCount, LearnOptions,
+};
 use crate::model_file::ModelFile;
 use crate::text_scoring::bits_per_byte;
 
@@ -72,14 +74,19 @@ pub struct EvalArgs {
     /// --savings and --keypad; `inf` follows every word that could still be offered).
     #[arg(long, default_value_t = DEFAULT_MARGIN)]
     pub margin: f32,
-    /// Also type each text with a user memory that starts empty and learns every word as
-    /// the writer ends it, blended into the suggestions as a cache model (for --savings;
-    /// reported as "with_learning" beside "model").
+    /// Also type each text with a user memory that starts empty and learns every word (and
+    /// the phrase ending with it) as the writer ends it, blended into the suggestions as a
+    /// cache model, with verified phrase suggestions (for --savings; reported as
+    /// "with_learning" beside "model").
     #[arg(long, requires = "savings")]
     pub learn: bool,
     /// The cache weight of --learn: 0 is the model alone, 1 the memory alone.
     #[arg(long, default_value_t = DEFAULT_CACHE_WEIGHT, requires = "learn")]
     pub cache_weight: f32,
+    /// The k of the phrase drafts' acceptance rule under --learn: a drafted byte is
+    /// accepted while it is among the model's k likeliest next bytes (0: no phrases).
+    #[arg(long, default_value_t = DEFAULT_DRAFT_TOP_K, requires = "learn")]
+    pub draft_top_k: usize,
 }
 
 fn score(path: &Path, text: &[u8], label: &str) -> Result<(f64, &'static str), HostError> {
@@ -157,7 +164,10 @@ fn savings(
     let file = ModelFile::open(&args.model)?;
     let bar = progress_bar("keystrokes", text.len());
     let found = file.with_weights(|w| {
-        let learn = args.learn.then_some(args.cache_weight);
+        let learn = args.learn.then_some(LearnOptions {
+            weight: args.cache_weight,
+            draft_top_k: args.draft_top_k,
+        });
         compare(w, baseline, text, args.count, search, learn, |at| {
             bar.set_position(at as u64)
         })

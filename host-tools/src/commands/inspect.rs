@@ -23,15 +23,15 @@ pub struct InspectArgs {
     pub json: bool,
 }
 
-/// The RAM and flash of a user memory of `words` words, in sectors of
+/// The RAM and flash of a user memory of `words` words (and no phrases), in sectors of
 /// [`SECTOR`](crate::memory_file::SECTOR) bytes with 4-byte writes.
 pub fn user_memory_bytes(words: usize) -> (usize, usize) {
     use inkling_core::user_memory::{
         flash_layout::flash_bytes_needed, learned_words::ram_bytes_for,
     };
     (
-        ram_bytes_for(words),
-        flash_bytes_needed(words, crate::memory_file::SECTOR, 4),
+        ram_bytes_for(words, 0),
+        flash_bytes_needed(words, 0, crate::memory_file::SECTOR, 4),
     )
 }
 

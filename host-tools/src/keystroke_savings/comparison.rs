@@ -6,7 +6,9 @@ use inkling_core::Error;
 use crate::commands::suggest::MAX_COUNT;
 
 use super::frequency_baseline::FrequencyBaseline;
-use super::model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
+use super::model_predictor::{
+    LearnOptions, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS,
+};
 use super::session_memory::session_memory;
 use super::simulation::{simulate, simulate_with, KeyCount};
 use inkling_core::session::{SearchOptions, DEFAULT_HISTORY};
@@ -37,22 +39,26 @@ pub struct LearningRun {
     pub keys: KeyCount,
     /// Engine steps of all its searches.
     pub search_steps: usize,
-    /// The cache weight `λ`.
-    pub weight: f32,
+    /// The cache weight `λ` and the drafts' top-k.
+    pub options: LearnOptions,
     /// Words the memory held at the end.
     pub words_learned: usize,
+    /// Phrases the memory held at the end.
+    pub phrases_learned: usize,
+    /// Searches that offered a phrase.
+    pub phrases_offered: usize,
 }
 
 /// Types `text` with the model `weights` and with `baseline`, `count` suggestions each (at
-/// most [`MAX_COUNT`]), and, with `learn` set to a cache weight, with the model and a user
-/// memory that starts empty; `progress` hears how many bytes of the text a run has done.
+/// most [`MAX_COUNT`]), and, with `learn` set, with the model and a user memory that starts
+/// empty; `progress` hears how many bytes of the text a run has done.
 pub fn compare(
     weights: &dyn Weights,
     baseline: &mut FrequencyBaseline,
     text: &[u8],
     count: usize,
     search: SearchOptions<'_>,
-    learn: Option<f32>,
+    learn: Option<LearnOptions>,
     mut progress: impl FnMut(usize),
 ) -> Result<Comparison, Error> {
     let mut memory = session_memory(weights.dims(), MAX_COUNT);
@@ -63,18 +69,20 @@ pub fn compare(
     })?;
     let search_steps = predictor.search_steps;
     let with_learning = match learn {
-        Some(weight) => {
+        Some(options) => {
             let session = memory.session::<_, MAX_COUNT, DEFAULT_HISTORY>(weights)?;
             let mut predictor =
-                ModelPredictor::new(session, search).learning(Learning::new(weight));
+                ModelPredictor::new(session, search).learning(Learning::new(options));
             let keys = simulate_with(text, count, &mut predictor, |offer| {
                 progress(offer.typed.len())
             })?;
             Some(LearningRun {
                 keys,
                 search_steps: predictor.search_steps,
-                weight,
+                options,
                 words_learned: predictor.learned_words(),
+                phrases_learned: predictor.learned_phrases(),
+                phrases_offered: predictor.phrases_offered,
             })
         }
         None => None,
@@ -122,9 +130,14 @@ impl Comparison {
                 "keys": run.keys.with_prediction(sel, auto),
                 "words_taken": run.keys.taken,
                 "search_steps": run.search_steps,
-                "cache_weight": run.weight,
+                "cache_weight": run.options.weight,
+                "draft_top_k": run.options.draft_top_k,
                 "memory_capacity_words": MEMORY_WORDS,
+                "memory_capacity_phrases": MEMORY_PHRASES,
                 "words_learned": run.words_learned,
+                "phrases_learned": run.phrases_learned,
+                "phrases_offered": run.phrases_offered,
+                "phrases_taken": run.keys.phrases_taken,
                 "variants": FRAMINGS[1..].iter().map(|&(sel, auto)| serde_json::json!({
                     "selection_counts": sel,
                     "auto_space": auto,
@@ -175,12 +188,18 @@ impl Comparison {
         );
         if let Some(run) = &self.with_learning {
             println!(
-                "  with learning: {} keys ({} words taken), a memory of at most {MEMORY_WORDS} words \
-                 starting empty ({} at the end), cache weight {}, {} engine steps against {}",
+                "  with learning: {} keys ({} suggestions taken, {} of them phrases; {} phrases \
+                 offered), a memory of at most {MEMORY_WORDS} words and {MEMORY_PHRASES} phrases \
+                 starting empty ({} and {} at the end), cache weight {}, draft top-k {}, {} engine \
+                 steps against {}",
                 run.keys.with_prediction(true, false),
                 run.keys.taken,
+                run.keys.phrases_taken,
+                run.phrases_offered,
                 run.words_learned,
-                run.weight,
+                run.phrases_learned,
+                run.options.weight,
+                run.options.draft_top_k,
                 run.search_steps,
                 self.search_steps
             );

@@ -12,7 +12,11 @@
 //! prediction), the writer looks at the `K` suggestions; if one of them is exactly the word
 //! being typed, they take it and the rest of the word is entered for them. Boundary bytes
 //! (spaces, punctuation, newlines) are always typed. A suggestion is a whole word, so "the"
-//! offered while typing "then" is not taken.
+//! offered while typing "then" is not taken. A phrase suggestion (several words from the
+//! user memory) is taken the same way, with one key, when the text goes on with exactly
+//! those words (ending where a word ends): the rest of the phrase, boundary bytes between
+//! its words included, is entered for the writer. When several suggestions fit, the writer
+//! takes the longest.
 //!
 //! **Two choices the figure depends on** (Trnka & McCoy 2008 show both move it by several
 //! points), reported explicitly:
@@ -38,6 +42,8 @@ pub mod simulation;
 pub use comparison::{compare, Comparison, LearningRun};
 pub use frequency_baseline::FrequencyBaseline;
 pub use keypad_entry::{keypad_entry, KeypadCount};
-pub use model_predictor::{Learning, ModelPredictor, MEMORY_WORDS};
+pub use model_predictor::{
+    HostMemory, LearnOptions, Learning, ModelPredictor, MEMORY_PHRASES, MEMORY_WORDS,
+};
 pub use session_memory::{session_memory, SessionMemory};
 pub use simulation::{simulate, simulate_with, KeyCount, Offer, Predictor};

@@ -28,6 +28,8 @@ pub struct KeyCount {
     pub taken: usize,
     /// Taken words that a space follows in the text.
     pub taken_before_space: usize,
+    /// Of the words taken, phrase suggestions (several words taken with one key).
+    pub phrases_taken: usize,
 }
 
 impl KeyCount {
@@ -103,35 +105,66 @@ pub fn simulate_with<P: Predictor>(
         let word = &text[at..at + len];
         keys.words += 1;
         let mut typed = 0;
+        let mut took = len;
         while typed < len {
             let words = predictor.offer(&word[..typed], count)?;
-            let taken = words.iter().position(|w| w.as_slice() == word);
+            let taken = longest_fit(&text[at..], &words);
             watch(&Offer {
                 typed: &text[..at + typed],
                 word,
                 words: &words,
                 taken,
             });
-            if taken.is_some() {
+            if let Some(i) = taken {
+                took = words[i].len();
                 break;
             }
             predictor.push(word[typed])?;
             typed += 1;
         }
         if typed < len {
-            // Taken: one key, and the rest of the word is entered for the writer.
+            // Taken: one key, and the rest of the word (or phrase) is entered for the writer.
+            let offered = &text[at..at + took];
             keys.keys += typed + 1;
             keys.taken += 1;
-            if text.get(at + len) == Some(&b' ') {
+            let more_words = word_starts(offered) - 1;
+            keys.words += more_words;
+            keys.phrases_taken += usize::from(more_words > 0);
+            if text.get(at + took) == Some(&b' ') {
                 keys.taken_before_space += 1;
             }
-            word[typed..].iter().try_for_each(|&b| predictor.push(b))?;
+            offered[typed..]
+                .iter()
+                .try_for_each(|&b| predictor.push(b))?;
+            at += took;
         } else {
             keys.keys += len;
+            at += len;
         }
-        at += len;
     }
     Ok(keys)
+}
+
+/// The longest of `offers` that `text` starts with and that ends where a word of `text`
+/// ends (an offered word is so taken only if it is the whole word).
+fn longest_fit(text: &[u8], offers: &[Vec<u8>]) -> Option<usize> {
+    offers
+        .iter()
+        .enumerate()
+        .filter(|(_, w)| {
+            !w.is_empty()
+                && text.starts_with(w)
+                && text.get(w.len()).is_none_or(|&b| is_boundary(b))
+        })
+        .max_by_key(|(i, w)| (w.len(), usize::MAX - i))
+        .map(|(i, _)| i)
+}
+
+/// Words of `text` (word bytes after a boundary or at the start).
+fn word_starts(text: &[u8]) -> usize {
+    (0..text.len())
+        .filter(|&i| !is_boundary(text[i]) && (i == 0 || is_boundary(text[i - 1])))
+        .count()
 }
 
 /// The first `max_bytes` bytes of `text`, shortened to end at a word boundary so that no word
@@ -181,12 +214,37 @@ mod tests {
                 keys: 4,
                 words: 2,
                 taken: 2,
-                taken_before_space: 1
+                taken_before_space: 1,
+                phrases_taken: 0,
             }
         );
         assert_eq!(keys.with_prediction(true, true), 4);
         assert_eq!(keys.with_prediction(false, false), 2);
         assert!((keys.savings(true, false) - 2.0 / 6.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn a_phrase_is_taken_with_one_key_when_the_text_goes_on_with_it() {
+        // "go up the hill." letter by letter: 15 keys. The phrase "go up the hill" is
+        // offered from the start: 1 key, then "." typed: 2 keys, 4 words, one taken.
+        // "go up the" alone would also fit; the longest is taken. "go up thehill" does not
+        // end where a word ends and is never taken.
+        let offers = vec![
+            b"go up thehill".to_vec(),
+            b"go up the".to_vec(),
+            b"go up the hill".to_vec(),
+        ];
+        let keys = simulate(b"go up the hill.", 3, &mut Fixed(offers)).unwrap();
+        assert_eq!(
+            (
+                keys.bytes,
+                keys.keys,
+                keys.words,
+                keys.taken,
+                keys.phrases_taken
+            ),
+            (15, 2, 4, 1, 1)
+        );
     }
 
     #[test]
