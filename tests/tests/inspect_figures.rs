@@ -117,3 +117,59 @@ fn inspect_reports_the_user_memory_that_a_store_really_needs() {
     }
     assert_eq!(words.len(), 256);
 }
+
+#[test]
+fn inspect_counts_the_phrases_of_a_user_memory_too() {
+    use inkling_core::session::{WordList, MAX_WORD_LEN};
+    use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory, MAX_PHRASE_LEN};
+    let dir = tempfile::tempdir().unwrap();
+    let (_, image) = preset_model(Preset::Tiny, 3, dir.path());
+    let path = dir.path().join("tiny.inkl");
+    std::fs::write(&path, &image).unwrap();
+    let report = run_json([
+        "inspect".as_ref(),
+        path.as_os_str(),
+        "--memory-words".as_ref(),
+        "64".as_ref(),
+        "--memory-phrases".as_ref(),
+        "32".as_ref(),
+        "--json".as_ref(),
+    ]);
+    let memory = &report["user_memory"];
+    assert_eq!(memory["phrases"].as_u64(), Some(32));
+    // RAM: the compiler's layout of the type (core::mem::size_of).
+    assert_eq!(
+        memory["ram_bytes"].as_u64().unwrap() as usize,
+        core::mem::size_of::<UserMemory<64, 32>>()
+    );
+    // Flash: a store of that size holds 64 words and 32 phrases of the longest kinds (words
+    // of MAX_WORD_LEN bytes; four words filling MAX_PHRASE_LEN), each learned and saved, many
+    // times over.
+    let flash = memory["flash_bytes"].as_u64().unwrap() as usize;
+    let mut bytes = vec![0xFFu8; flash];
+    let mut store = FlashStore::new(RamFlash::<4096>::new(&mut bytes), 0..flash as u32).unwrap();
+    let mut learned = Box::new(UserMemory::<64, 32>::new());
+    store.load(&mut learned).unwrap();
+    let word_len = (MAX_PHRASE_LEN - 3) / 4;
+    for round in 0..4u32 {
+        for i in 0..64u32 {
+            let words: Vec<String> = (0..4)
+                .map(|w| format!("{:a<word_len$}", format!("w{round}x{i}y{w}")))
+                .collect();
+            let phrase = words.join(" ");
+            assert!(phrase.len() <= MAX_PHRASE_LEN);
+            for word in &words {
+                learned.learn(word.as_bytes(), &WordList::EMPTY);
+            }
+            learned.learn_phrase(phrase.as_bytes(), &WordList::EMPTY);
+            let longest = format!("{:a<MAX_WORD_LEN$}", format!("v{round}x{i}"));
+            learned.learn(longest.as_bytes(), &WordList::EMPTY);
+            store.save(&mut learned).unwrap();
+        }
+    }
+    assert_eq!((learned.words().len(), learned.phrases().len()), (64, 32));
+    assert!(learned
+        .phrases()
+        .iter()
+        .all(|p| p.text().len() == 4 * word_len + 3));
+}

@@ -47,6 +47,9 @@ pub struct BudgetArgs {
     /// sectors) are counted in (`inkling inspect --memory-words`).
     #[arg(long, default_value_t = 0, value_name = "WORDS")]
     pub memory_words: usize,
+    /// Learned phrases of that user memory, counted in the same way.
+    #[arg(long, default_value_t = 0, value_name = "PHRASES")]
+    pub memory_phrases: usize,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
@@ -187,8 +190,9 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         ))
     })?;
     let ms = |instructions: f64| milliseconds(instructions, args.clock);
-    let (memory_ram, memory_flash) = if args.memory_words > 0 {
-        super::inspect::user_memory_bytes(args.memory_words)
+    let with_memory = args.memory_words > 0 || args.memory_phrases > 0;
+    let (memory_ram, memory_flash) = if with_memory {
+        super::inspect::user_memory_bytes(args.memory_words, args.memory_phrases)
     } else {
         (0, 0)
     };
@@ -237,6 +241,7 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
                 "keystroke_max_to_mean": model.max_to_mean,
                 "instructions_per_cycle": 1.0,
                 "memory_words": args.memory_words,
+                "memory_phrases": args.memory_phrases,
                 "memory_ram_bytes": memory_ram,
                 "memory_flash_bytes": memory_flash,
             },
@@ -252,10 +257,10 @@ pub fn run(args: &BudgetArgs) -> Result<(), HostError> {
         .max_ms
         .map(|limit| format!(" with keystrokes of at most {limit} ms"))
         .unwrap_or_default();
-    let memory = if args.memory_words > 0 {
+    let memory = if with_memory {
         format!(
-            "; a user memory of {} words takes {memory_ram} B RAM and {memory_flash} B flash",
-            args.memory_words
+            "; a user memory of {} words and {} phrases takes {memory_ram} B RAM and {memory_flash} B flash",
+            args.memory_words, args.memory_phrases
         )
     } else {
         String::new()

@@ -18,20 +18,28 @@ pub struct InspectArgs {
     /// 4 KB sectors with 4-byte writes).
     #[arg(long, value_name = "WORDS")]
     pub memory_words: Option<usize>,
+    /// With --memory-words: the user memory also keeps this many phrases.
+    #[arg(
+        long,
+        default_value_t = 0,
+        value_name = "PHRASES",
+        requires = "memory_words"
+    )]
+    pub memory_phrases: usize,
     /// Print one JSON object.
     #[arg(long)]
     pub json: bool,
 }
 
-/// The RAM and flash of a user memory of `words` words (and no phrases), in sectors of
+/// The RAM and flash of a user memory of `words` words and `phrases` phrases, in sectors of
 /// [`SECTOR`](crate::memory_file::SECTOR) bytes with 4-byte writes.
-pub fn user_memory_bytes(words: usize) -> (usize, usize) {
+pub fn user_memory_bytes(words: usize, phrases: usize) -> (usize, usize) {
     use inkling_core::user_memory::{
         flash_layout::flash_bytes_needed, learned_words::ram_bytes_for,
     };
     (
-        ram_bytes_for(words, 0),
-        flash_bytes_needed(words, 0, crate::memory_file::SECTOR, 4),
+        ram_bytes_for(words, phrases),
+        flash_bytes_needed(words, phrases, crate::memory_file::SECTOR, 4),
     )
 }
 
@@ -60,10 +68,11 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
         })
         .collect();
     let session = args.beams.map(|k| crate::commands::session_ram(&d, k));
+    let phrases = args.memory_phrases;
     let memory = args.memory_words.map(|words| {
-        let (ram, flash) = user_memory_bytes(words);
+        let (ram, flash) = user_memory_bytes(words, phrases);
         serde_json::json!({
-            "words": words, "ram_bytes": ram, "flash_bytes": flash,
+            "words": words, "phrases": phrases, "ram_bytes": ram, "flash_bytes": flash,
             "sector_bytes": crate::memory_file::SECTOR,
         })
     });
@@ -135,9 +144,9 @@ pub fn run(args: &InspectArgs) -> Result<(), HostError> {
             );
         }
         if let Some(words) = args.memory_words {
-            let (ram, flash) = user_memory_bytes(words);
+            let (ram, flash) = user_memory_bytes(words, phrases);
             println!(
-                "user memory of {words} words: RAM {ram} bytes, flash {flash} bytes ({} sectors of {} bytes)",
+                "user memory of {words} words and {phrases} phrases: RAM {ram} bytes, flash {flash} bytes ({} sectors of {} bytes)",
                 flash / crate::memory_file::SECTOR,
                 crate::memory_file::SECTOR
             );
