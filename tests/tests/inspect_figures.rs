@@ -79,22 +79,23 @@ fn inspect_figures_match_the_engine() {
     }
 }
 
-#[test]
-fn inspect_reports_the_user_memory_that_a_store_really_needs() {
-    use inkling_core::session::WordList;
-    use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
+/// The `user_memory` object of `inkling inspect --json` on a tiny model, with `options`.
+fn inspect_user_memory(options: &[&str]) -> serde_json::Value {
     let dir = tempfile::tempdir().unwrap();
     let (_, image) = preset_model(Preset::Tiny, 3, dir.path());
     let path = dir.path().join("tiny.inkl");
     std::fs::write(&path, &image).unwrap();
-    let report = run_json([
-        "inspect".as_ref(),
-        path.as_os_str(),
-        "--memory-words".as_ref(),
-        "256".as_ref(),
-        "--json".as_ref(),
-    ]);
-    let memory = &report["user_memory"];
+    let mut args: Vec<&std::ffi::OsStr> = vec!["inspect".as_ref(), path.as_os_str()];
+    args.extend(options.iter().map(std::ffi::OsStr::new));
+    args.push("--json".as_ref());
+    run_json(args)["user_memory"].clone()
+}
+
+#[test]
+fn inspect_reports_the_user_memory_that_a_store_really_needs() {
+    use inkling_core::session::WordList;
+    use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
+    let memory = &inspect_user_memory(&["--memory-words", "256"]);
     // RAM: the compiler's layout of the type (core::mem::size_of).
     assert_eq!(
         memory["ram_bytes"].as_u64().unwrap() as usize,
@@ -122,20 +123,7 @@ fn inspect_reports_the_user_memory_that_a_store_really_needs() {
 fn inspect_counts_the_phrases_of_a_user_memory_too() {
     use inkling_core::session::{WordList, MAX_WORD_LEN};
     use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory, MAX_PHRASE_LEN};
-    let dir = tempfile::tempdir().unwrap();
-    let (_, image) = preset_model(Preset::Tiny, 3, dir.path());
-    let path = dir.path().join("tiny.inkl");
-    std::fs::write(&path, &image).unwrap();
-    let report = run_json([
-        "inspect".as_ref(),
-        path.as_os_str(),
-        "--memory-words".as_ref(),
-        "64".as_ref(),
-        "--memory-phrases".as_ref(),
-        "32".as_ref(),
-        "--json".as_ref(),
-    ]);
-    let memory = &report["user_memory"];
+    let memory = &inspect_user_memory(&["--memory-words", "64", "--memory-phrases", "32"]);
     assert_eq!(memory["phrases"].as_u64(), Some(32));
     // RAM: the compiler's layout of the type (core::mem::size_of).
     assert_eq!(
