@@ -4,17 +4,18 @@
 use std::path::{Path, PathBuf};
 
 use inkling_core::user_memory::flash_layout::flash_bytes_needed;
-use inkling_core::user_memory::{FlashStore, RamFlash, UserMemory};
+use inkling_core::user_memory::{FlashStore, RamFlash};
 
 use crate::error::HostError;
-use crate::keystroke_savings::MEMORY_WORDS;
+use crate::keystroke_savings::{HostMemory, MEMORY_PHRASES, MEMORY_WORDS};
 
 /// The flash page (erase sector) of the file's layout: 4 KB, the sector of common SPI NOR
 /// parts, with 4-byte writes ([`RamFlash`]).
 pub const SECTOR: usize = 4096;
 
-/// Bytes of the file: [`flash_bytes_needed`] for [`MEMORY_WORDS`] words in [`SECTOR`]s.
-pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, 0, SECTOR, 4);
+/// Bytes of the file: [`flash_bytes_needed`] for [`MEMORY_WORDS`] words and
+/// [`MEMORY_PHRASES`] phrases in [`SECTOR`]s.
+pub const FILE_BYTES: usize = flash_bytes_needed(MEMORY_WORDS, MEMORY_PHRASES, SECTOR, 4);
 
 /// A memory file: its path and its bytes (all erased for a file that does not exist yet).
 #[derive(Debug)]
@@ -25,7 +26,7 @@ pub struct MemoryFile {
 
 impl MemoryFile {
     /// Opens `path` (a missing file is an empty memory) and reads the memory in it.
-    pub fn open(path: &Path) -> Result<(Self, Box<UserMemory<MEMORY_WORDS>>), HostError> {
+    pub fn open(path: &Path) -> Result<(Self, Box<HostMemory>), HostError> {
         let bytes = match std::fs::read(path) {
             Ok(bytes) => bytes,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => vec![0xFF; FILE_BYTES],
@@ -34,7 +35,7 @@ impl MemoryFile {
         if bytes.len() != FILE_BYTES {
             return Err(HostError::Usage(format!(
                 "{}: {} bytes, but a memory file is the {FILE_BYTES} bytes of a flash range \
-                 ({MEMORY_WORDS} words in {SECTOR}-byte sectors)",
+                 ({MEMORY_WORDS} words and {MEMORY_PHRASES} phrases in {SECTOR}-byte sectors)",
                 path.display(),
                 bytes.len()
             )));
@@ -43,18 +44,18 @@ impl MemoryFile {
             path: path.to_path_buf(),
             bytes,
         };
-        let mut memory = Box::new(UserMemory::new());
+        let mut memory = Box::new(HostMemory::new());
         file.with_store(|store| store.load(&mut memory).map(|_| ()))?;
         Ok((file, memory))
     }
 
     /// Writes what changed in `memory` (loaded from this file) to the flash bytes and the
     /// bytes to the file.
-    pub fn save(&mut self, memory: &mut UserMemory<MEMORY_WORDS>) -> Result<(), HostError> {
+    pub fn save(&mut self, memory: &mut HostMemory) -> Result<(), HostError> {
         self.with_store(|store| {
             // Loading ties the store to the memory in the file; the words of `memory` not
             // yet saved are then written over it.
-            store.load(&mut UserMemory::<MEMORY_WORDS>::new())?;
+            store.load(&mut HostMemory::new())?;
             store.save(memory).map(|_| ())
         })?;
         std::fs::write(&self.path, &self.bytes).map_err(HostError::io(&self.path))
@@ -100,9 +101,13 @@ mod tests {
         let (mut file, mut again) = MemoryFile::open(&path).unwrap();
         assert_eq!(again.count_of(b"Greta"), 2);
         assert_eq!(again.count_of(b"Idris"), 1);
+        assert!(again
+            .phrases()
+            .iter()
+            .any(|p| p.text() == b"Greta at Tamsel Hut"));
         again.clear();
         file.save(&mut again).unwrap();
         let (_, cleared) = MemoryFile::open(&path).unwrap();
-        assert!(cleared.is_empty());
+        assert!(cleared.is_empty() && cleared.phrases().is_empty());
     }
 }

@@ -2,16 +2,18 @@
 //!
 //! Keys (chosen to work in any plain terminal; digits and letters are text):
 //! - letters, digits, punctuation, space: typed;
-//! - `Tab`: take the marked suggestion (the first unless moved), the word is completed and
-//!   nothing is inserted after it;
+//! - `Tab`: take the marked suggestion (the first unless moved), the word (or phrase) is
+//!   completed and nothing is inserted after it;
 //! - `Up` / `Down`: move the mark;
 //! - `Enter`: a new line (the end of a message, as in the training text);
 //! - `Backspace`: delete the last character (inside a word or across a boundary);
-//! - `Ctrl-X`: forget every word learned (in the memory file too, with `--memory`);
+//! - `Ctrl-X`: forget every word and phrase learned (in the memory file too, with `--memory`);
 //! - `Esc` or `Ctrl-C`: quit; the terminal is restored however the screen ends.
 //!
 //! The session learns: each word is put in a user memory when a boundary after it is typed
-//! (typos too), and the memory is blended into the suggestions as a cache model. With
+//! (typos too), with the phrase that ends with it (up to four words of the sentence); the
+//! memory is blended into the suggestions as a cache model, and a phrase whose start is typed
+//! is offered, once the model has verified it, after the words, marked "(phrase)". With
 //! `--memory FILE` the memory is read from FILE at the start and written to it at every
 //! new line and on quitting, in the layout a device's flash holds
 //! ([`memory_file`](crate::memory_file)). The file holds what was typed.
@@ -32,11 +34,11 @@ use inkling_core::engine::weights::Weights;
 use inkling_core::session::{
     is_boundary, SearchOptions, Session, Suggestions, WordList, DEFAULT_HISTORY, DEFAULT_MAX_STEPS,
 };
-use inkling_core::user_memory::{CacheBlend, UserMemory, DEFAULT_CACHE_WEIGHT};
+use inkling_core::user_memory::{CacheBlend, DEFAULT_CACHE_WEIGHT};
 
 use super::suggest::MAX_COUNT;
 use crate::error::HostError;
-use crate::keystroke_savings::{session_memory, MEMORY_WORDS};
+use crate::keystroke_savings::{session_memory, HostMemory};
 use crate::memory_file::MemoryFile;
 use crate::model_file::ModelFile;
 
@@ -54,8 +56,8 @@ pub struct TryArgs {
     /// Engine steps each search may take.
     #[arg(long, default_value_t = DEFAULT_MAX_STEPS)]
     pub max_steps: usize,
-    /// Keep the learned words in FILE (the bytes of a device's flash range): read at the
-    /// start, written at every new line and on quitting. It holds what you type.
+    /// Keep the learned words and phrases in FILE (the bytes of a device's flash range):
+    /// read at the start, written at every new line and on quitting. It holds what you type.
     #[arg(long, value_name = "FILE")]
     pub memory: Option<PathBuf>,
 }
@@ -125,8 +127,8 @@ struct Screen<'b, W: Weights> {
     mark: usize,
     keys: usize,
     note: String,
-    /// The words learned this session (and read from the memory file).
-    learned: Box<UserMemory<MEMORY_WORDS>>,
+    /// The words and phrases learned this session (and read from the memory file).
+    learned: Box<HostMemory>,
     /// Where the memory is kept, if anywhere.
     file: Option<MemoryFile>,
 }
@@ -136,7 +138,7 @@ impl<'b, W: Weights> Screen<'b, W> {
     fn new(
         session: Session<'b, W, MAX_COUNT>,
         options: SearchOptions<'static>,
-        learned: Box<UserMemory<MEMORY_WORDS>>,
+        learned: Box<HostMemory>,
         file: Option<MemoryFile>,
     ) -> Self {
         Screen {
@@ -176,6 +178,7 @@ impl<'b, W: Weights> Screen<'b, W> {
         for (done, &b) in bytes.iter().enumerate() {
             if is_boundary(b) {
                 self.learned.learn(self.session.word(), &WordList::EMPTY);
+                self.learned.learn_phrase(&self.text, &WordList::EMPTY);
             }
             if let Err(e) = self.session.push(b) {
                 for _ in 0..done {
@@ -187,6 +190,21 @@ impl<'b, W: Weights> Screen<'b, W> {
             self.text.push(b);
         }
         Ok(())
+    }
+
+    /// What the screen offers, in order: the words, then the phrase if there is one, each
+    /// with the tag shown after it.
+    fn offers(&self) -> impl Iterator<Item = (&[u8], &'static str)> {
+        let words = self.found.list.iter().map(|s| {
+            let tag = if s.finished { "" } else { "  (unfinished)" };
+            (&s.text[..], tag)
+        });
+        let phrase = self
+            .found
+            .phrase
+            .iter()
+            .map(|p| (&p.text[..], "  (phrase)"));
+        words.chain(phrase)
     }
 
     fn delete(&mut self) -> Result<(), inkling_core::Error> {
@@ -207,7 +225,7 @@ impl<'b, W: Weights> Screen<'b, W> {
             Action::Quit => return Ok(false),
             Action::Ignore => return Ok(true),
             Action::Mark(step) => {
-                let n = self.found.list.len().max(1) as isize;
+                let n = self.offers().count().max(1) as isize;
                 self.mark = (self.mark as isize + step).rem_euclid(n) as usize;
                 self.keys += 1;
                 return Ok(true);
@@ -223,15 +241,16 @@ impl<'b, W: Weights> Screen<'b, W> {
                 self.learned.clear();
                 self.save_memory();
                 if self.note.is_empty() {
-                    self.note = "every learned word forgotten".into();
+                    self.note = "every learned word and phrase forgotten".into();
                 }
                 Ok(())
             }
             Action::Take => {
-                // A suggestion is the typed part of the word followed by its completion.
+                // A suggestion (word or phrase) is the typed part of the word followed by its
+                // completion.
                 let typed = self.session.word().len();
-                let rest: Vec<u8> = (self.found.list.get(self.mark))
-                    .and_then(|s| s.text.get(typed..))
+                let rest: Vec<u8> = (self.offers().nth(self.mark))
+                    .and_then(|(text, _)| text.get(typed..))
                     .map(<[u8]>::to_vec)
                     .unwrap_or_default();
                 self.type_bytes(&rest)
@@ -258,15 +277,10 @@ impl<'b, W: Weights> Screen<'b, W> {
                 format!("| {}{caret}", String::from_utf8_lossy(line))
             })
             .collect();
-        let suggestions: Vec<String> = (self.found.list.iter().enumerate())
-            .map(|(i, s)| {
+        let suggestions: Vec<String> = (self.offers().enumerate())
+            .map(|(i, (text, tag))| {
                 let mark = if i == self.mark { ">" } else { " " };
-                let tag = if s.finished { "" } else { "  (unfinished)" };
-                format!(
-                    "{mark} {}. {}{tag}",
-                    i + 1,
-                    String::from_utf8_lossy(&s.text)
-                )
+                format!("{mark} {}. {}{tag}", i + 1, String::from_utf8_lossy(text))
             })
             .collect();
         let status = self.status();
@@ -292,7 +306,7 @@ impl<'b, W: Weights> Screen<'b, W> {
         if help_rows > 0 {
             lines.push(
                 "Tab: take the marked suggestion  Up/Down: move the mark  Enter: new line  \
-                 Backspace: delete  Ctrl-X: forget learned words  Esc or Ctrl-C: quit"
+                 Backspace: delete  Ctrl-X: forget what was learned  Esc or Ctrl-C: quit"
                     .to_string(),
             );
         }
@@ -325,7 +339,7 @@ impl<'b, W: Weights> Screen<'b, W> {
             format!(" (kept in {})", f.path().display())
         });
         format!(
-            "key {}, {} steps{}, {} words learned{kept}  {}",
+            "key {}, {} steps{}, {} words and {} phrases learned{kept}  {}",
             self.keys,
             self.found.steps,
             if self.found.cut_short {
@@ -334,6 +348,7 @@ impl<'b, W: Weights> Screen<'b, W> {
                 ""
             },
             self.learned.len(),
+            self.learned.phrases().len(),
             self.note
         )
     }
@@ -381,7 +396,7 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
             let (file, memory) = MemoryFile::open(path)?;
             (Some(file), memory)
         }
-        None => (None, Box::new(UserMemory::new())),
+        None => (None, Box::new(HostMemory::new())),
     };
     file.with_weights(|w| {
         let mut memory = session_memory(w.dims(), MAX_COUNT);
@@ -432,7 +447,7 @@ mod tests {
         let mut screen = Screen::new(
             session,
             SearchOptions::new(3),
-            Box::new(UserMemory::new()),
+            Box::new(HostMemory::new()),
             None,
         );
         screen.text = b"first line\nsecond line\nthird li".to_vec();
@@ -469,7 +484,7 @@ mod tests {
         let mut screen = Screen::new(
             session,
             SearchOptions::new(3),
-            Box::new(UserMemory::new()),
+            Box::new(HostMemory::new()),
             None,
         );
         let offered = |screen: &Screen<'_, _>| {
@@ -486,6 +501,43 @@ mod tests {
         let forget = KeyEvent::new(KeyCode::Char('x'), KeyModifiers::CONTROL);
         assert!(screen.key(&forget).unwrap());
         assert!(screen.learned.is_empty() && !offered(&screen));
+    }
+
+    #[test]
+    fn the_screen_offers_a_repeated_phrase_and_takes_it_with_one_key() {
+        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../models/demo.inkl");
+        let image = std::fs::read(path).unwrap();
+        let model = inkling_core::Model::from_bytes(&image).unwrap();
+        let mut memory = session_memory(model.dims(), MAX_COUNT);
+        let session = memory
+            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
+            .unwrap();
+        let mut screen = Screen::new(
+            session,
+            SearchOptions::new(3),
+            Box::new(HostMemory::new()),
+            None,
+        );
+        screen
+            .type_bytes(b"Rope bag checked at the hut. Rope bag checked at the hut. Rope b")
+            .unwrap();
+        screen.refresh().unwrap();
+        let phrase = screen.found.phrase.clone().expect("a phrase offered");
+        assert!(phrase.text.starts_with(b"bag checked"), "{phrase:?}");
+        // The phrase comes after the words, tagged; Down moves the mark onto it, Tab takes it.
+        let lines = screen.lines("title", 40, 200);
+        assert!(lines.iter().any(|l| l.ends_with("  (phrase)")), "{lines:?}");
+        let down = KeyEvent::new(KeyCode::Down, KeyModifiers::NONE);
+        for _ in 0..screen.found.list.len() {
+            assert!(screen.key(&down).unwrap());
+        }
+        let tab = KeyEvent::new(KeyCode::Tab, KeyModifiers::NONE);
+        assert!(screen.key(&tab).unwrap());
+        let mut expected =
+            b"Rope bag checked at the hut. Rope bag checked at the hut. Rope ".to_vec();
+        expected.extend_from_slice(&phrase.text);
+        assert_eq!(screen.text, expected);
+        assert!(screen.learned.phrases().len() >= 2);
     }
 
     #[test]
