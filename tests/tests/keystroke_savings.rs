@@ -4,6 +4,7 @@
 //! Definition (Trnka & McCoy 2008, "Evaluating Word Prediction: Framing Keystroke Savings",
 //! ACL-08): KS = (keys letter by letter − keys with prediction) / keys letter by letter.
 
+use std::ffi::OsStr;
 use std::path::{Path, PathBuf};
 
 use inkling_host::keystroke_savings::simulation::whole_words;
@@ -12,6 +13,24 @@ use inkling_tests::inkling_cli::{inkling_binary, random_image, run_json};
 
 fn repo_file(rel: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+/// The `keystroke_savings` object of `inkling eval MODEL --text TEXT --savings
+/// --baseline-corpus data/scenario/train.txt --json`, with `options` added.
+fn eval_savings(model: &Path, text: &Path, options: &[&str]) -> serde_json::Value {
+    let corpus = repo_file("data/scenario/train.txt");
+    let mut args: Vec<&OsStr> = vec![
+        "eval".as_ref(),
+        model.as_os_str(),
+        "--text".as_ref(),
+        text.as_os_str(),
+        "--savings".as_ref(),
+        "--baseline-corpus".as_ref(),
+        corpus.as_os_str(),
+        "--json".as_ref(),
+    ];
+    args.extend(options.iter().map(OsStr::new));
+    run_json(args)["keystroke_savings"].clone()
 }
 
 #[test]
@@ -70,21 +89,7 @@ fn eval_savings_reports_the_library_figures_for_both() {
     let image = random_image(dir.path());
     let text_path = repo_file("data/scenario/heldout.txt");
     let corpus_path = repo_file("data/scenario/train.txt");
-    let report = run_json([
-        "eval".as_ref(),
-        image.as_os_str(),
-        "--text".as_ref(),
-        text_path.as_os_str(),
-        "--savings".as_ref(),
-        "--baseline-corpus".as_ref(),
-        corpus_path.as_os_str(),
-        "--max-bytes".as_ref(),
-        "400".as_ref(),
-        "--count".as_ref(),
-        "3".as_ref(),
-        "--json".as_ref(),
-    ]);
-    let ks = &report["keystroke_savings"];
+    let ks = &eval_savings(&image, &text_path, &["--max-bytes", "400", "--count", "3"]);
     assert_eq!(ks["count"], 3);
     assert_eq!(ks["selection_counts"], true);
     assert_eq!(ks["auto_space"], false);
@@ -172,21 +177,7 @@ fn eval_learn_reports_with_learning_beside_model() {
     let dir = tempfile::tempdir().expect("temporary folder");
     let image = random_image(dir.path());
     let text_path = repo_file("data/scenario/logbook-heldout.txt");
-    let corpus_path = repo_file("data/scenario/train.txt");
-    let report = run_json([
-        "eval".as_ref(),
-        image.as_os_str(),
-        "--text".as_ref(),
-        text_path.as_os_str(),
-        "--savings".as_ref(),
-        "--learn".as_ref(),
-        "--baseline-corpus".as_ref(),
-        corpus_path.as_os_str(),
-        "--max-bytes".as_ref(),
-        "600".as_ref(),
-        "--json".as_ref(),
-    ]);
-    let ks = &report["keystroke_savings"];
+    let ks = &eval_savings(&image, &text_path, &["--learn", "--max-bytes", "600"]);
     let bytes = ks["bytes"].as_u64().unwrap() as f64;
     let learned = ks["with_learning"]
         .as_f64()
@@ -205,25 +196,14 @@ fn eval_learn_reports_with_learning_beside_model() {
     assert!(ks["learning"]["phrases_taken"].as_u64().is_some());
 }
 
-/// The bundled models' keystroke savings with and without a memory that learns, through
-/// `inkling eval --savings --learn --json` (headline framing: selection key counted).
+/// The bundled models' keystroke savings with and without a memory that learns
+/// (headline framing: selection key counted).
 fn savings_with_learning(model: &str, text: &str, max_bytes: &str) -> (f64, f64) {
-    let (model, text) = (repo_file(model), repo_file(text));
-    let corpus = repo_file("data/scenario/train.txt");
-    let report = run_json([
-        "eval".as_ref(),
-        model.as_os_str(),
-        "--text".as_ref(),
-        text.as_os_str(),
-        "--savings".as_ref(),
-        "--learn".as_ref(),
-        "--baseline-corpus".as_ref(),
-        corpus.as_os_str(),
-        "--max-bytes".as_ref(),
-        max_bytes.as_ref(),
-        "--json".as_ref(),
-    ]);
-    let ks = &report["keystroke_savings"];
+    let ks = eval_savings(
+        &repo_file(model),
+        &repo_file(text),
+        &["--learn", "--max-bytes", max_bytes],
+    );
     (
         ks["model"].as_f64().unwrap(),
         ks["with_learning"].as_f64().unwrap(),
