@@ -436,10 +436,10 @@ pub fn run(args: &TryArgs) -> Result<(), HostError> {
 mod tests {
     use super::*;
 
-    #[test]
-    fn a_short_terminal_keeps_the_line_being_typed() {
-        let image = inkling_core::image::example::tiny_image();
-        let model = inkling_core::Model::from_bytes(&image).unwrap();
+    /// Runs `test` on a screen over `image` with nothing typed, 3 suggestions and an empty
+    /// memory.
+    fn with_screen(image: &[u8], test: impl FnOnce(&mut Screen<'_, inkling_core::Model<'_>>)) {
+        let model = inkling_core::Model::from_bytes(image).unwrap();
         let mut memory = session_memory(model.dims(), MAX_COUNT);
         let session = memory
             .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
@@ -450,94 +450,84 @@ mod tests {
             Box::new(HostMemory::new()),
             None,
         );
-        screen.text = b"first line\nsecond line\nthird li".to_vec();
-        let text = screen.text.clone();
-        screen.session.push_bytes(&text).unwrap();
-        screen.refresh().unwrap();
-        assert_eq!(screen.found.list.len(), 3);
-        let full = screen.lines("title", 40, 200);
-        assert!(full.iter().any(|l| l == "| first line"));
-        for rows in 1..12 {
-            let lines = screen.lines("title", rows, 200);
-            // Never more lines than rows, so nothing scrolls; the typed line is always there.
-            assert!(lines.len() <= rows, "{rows} rows: {lines:?}");
-            assert!(
-                lines.iter().any(|l| l == "| third li_"),
-                "{rows} rows: {lines:?}"
-            );
-        }
-        // A narrow terminal cuts lines instead of wrapping them onto more rows.
-        assert!(screen
-            .lines("title", 40, 8)
-            .iter()
-            .all(|l| l.chars().count() <= 8));
+        test(&mut screen);
+    }
+
+    #[test]
+    fn a_short_terminal_keeps_the_line_being_typed() {
+        with_screen(&inkling_core::image::example::tiny_image(), |screen| {
+            screen.text = b"first line\nsecond line\nthird li".to_vec();
+            let text = screen.text.clone();
+            screen.session.push_bytes(&text).unwrap();
+            screen.refresh().unwrap();
+            assert_eq!(screen.found.list.len(), 3);
+            let full = screen.lines("title", 40, 200);
+            assert!(full.iter().any(|l| l == "| first line"));
+            for rows in 1..12 {
+                let lines = screen.lines("title", rows, 200);
+                // Never more lines than rows, so nothing scrolls; the typed line is always there.
+                assert!(lines.len() <= rows, "{rows} rows: {lines:?}");
+                assert!(
+                    lines.iter().any(|l| l == "| third li_"),
+                    "{rows} rows: {lines:?}"
+                );
+            }
+            // A narrow terminal cuts lines instead of wrapping them onto more rows.
+            assert!(screen
+                .lines("title", 40, 8)
+                .iter()
+                .all(|l| l.chars().count() <= 8));
+        });
     }
 
     #[test]
     fn the_screen_learns_a_name_and_forgets_it_on_request() {
-        let image = inkling_core::image::example::tiny_image();
-        let model = inkling_core::Model::from_bytes(&image).unwrap();
-        let mut memory = session_memory(model.dims(), MAX_COUNT);
-        let session = memory
-            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
-            .unwrap();
-        let mut screen = Screen::new(
-            session,
-            SearchOptions::new(3),
-            Box::new(HostMemory::new()),
-            None,
-        );
-        let offered = |screen: &Screen<'_, _>| {
-            screen
-                .found
-                .list
-                .iter()
-                .any(|s| s.text.as_slice() == b"Zorvath")
-        };
-        screen.type_bytes(b"Zorvath Zorvath Z").unwrap();
-        screen.refresh().unwrap();
-        assert_eq!(screen.learned.count_of(b"Zorvath"), 2);
-        assert!(offered(&screen));
-        let forget = KeyEvent::new(KeyCode::Char('x'), KeyModifiers::CONTROL);
-        assert!(screen.key(&forget).unwrap());
-        assert!(screen.learned.is_empty() && !offered(&screen));
+        with_screen(&inkling_core::image::example::tiny_image(), |screen| {
+            let offered = |screen: &Screen<'_, _>| {
+                screen
+                    .found
+                    .list
+                    .iter()
+                    .any(|s| s.text.as_slice() == b"Zorvath")
+            };
+            screen.type_bytes(b"Zorvath Zorvath Z").unwrap();
+            screen.refresh().unwrap();
+            assert_eq!(screen.learned.count_of(b"Zorvath"), 2);
+            assert!(offered(screen));
+            let forget = KeyEvent::new(KeyCode::Char('x'), KeyModifiers::CONTROL);
+            assert!(screen.key(&forget).unwrap());
+            assert!(screen.learned.is_empty() && !offered(screen));
+        });
     }
 
     #[test]
     fn the_screen_offers_a_repeated_phrase_and_takes_it_with_one_key() {
-        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../models/demo.inkl");
-        let image = std::fs::read(path).unwrap();
-        let model = inkling_core::Model::from_bytes(&image).unwrap();
-        let mut memory = session_memory(model.dims(), MAX_COUNT);
-        let session = memory
-            .session::<_, MAX_COUNT, DEFAULT_HISTORY>(model)
-            .unwrap();
-        let mut screen = Screen::new(
-            session,
-            SearchOptions::new(3),
-            Box::new(HostMemory::new()),
-            None,
+        with_screen(
+            &std::fs::read(concat!(env!("CARGO_MANIFEST_DIR"), "/../models/demo.inkl")).unwrap(),
+            |screen| {
+                screen
+                    .type_bytes(b"Rope bag checked at the hut. Rope bag checked at the hut. Rope b")
+                    .unwrap();
+                screen.refresh().unwrap();
+                let phrase = screen.found.phrase.clone().expect("a phrase offered");
+                assert!(phrase.text.starts_with(b"bag checked"), "{phrase:?}");
+                // The phrase comes after the words, tagged; Down moves the mark onto it, Tab
+                // takes it.
+                let lines = screen.lines("title", 40, 200);
+                assert!(lines.iter().any(|l| l.ends_with("  (phrase)")), "{lines:?}");
+                let down = KeyEvent::new(KeyCode::Down, KeyModifiers::NONE);
+                for _ in 0..screen.found.list.len() {
+                    assert!(screen.key(&down).unwrap());
+                }
+                let tab = KeyEvent::new(KeyCode::Tab, KeyModifiers::NONE);
+                assert!(screen.key(&tab).unwrap());
+                let mut expected =
+                    b"Rope bag checked at the hut. Rope bag checked at the hut. Rope ".to_vec();
+                expected.extend_from_slice(&phrase.text);
+                assert_eq!(screen.text, expected);
+                assert!(screen.learned.phrases().len() >= 2);
+            },
         );
-        screen
-            .type_bytes(b"Rope bag checked at the hut. Rope bag checked at the hut. Rope b")
-            .unwrap();
-        screen.refresh().unwrap();
-        let phrase = screen.found.phrase.clone().expect("a phrase offered");
-        assert!(phrase.text.starts_with(b"bag checked"), "{phrase:?}");
-        // The phrase comes after the words, tagged; Down moves the mark onto it, Tab takes it.
-        let lines = screen.lines("title", 40, 200);
-        assert!(lines.iter().any(|l| l.ends_with("  (phrase)")), "{lines:?}");
-        let down = KeyEvent::new(KeyCode::Down, KeyModifiers::NONE);
-        for _ in 0..screen.found.list.len() {
-            assert!(screen.key(&down).unwrap());
-        }
-        let tab = KeyEvent::new(KeyCode::Tab, KeyModifiers::NONE);
-        assert!(screen.key(&tab).unwrap());
-        let mut expected =
-            b"Rope bag checked at the hut. Rope bag checked at the hut. Rope ".to_vec();
-        expected.extend_from_slice(&phrase.text);
-        assert_eq!(screen.text, expected);
-        assert!(screen.learned.phrases().len() >= 2);
     }
 
     #[test]
