@@ -138,8 +138,7 @@ where
         .map(|(b, t)| *t = b)
         .count();
     let list = found.as_ref().map_or(&[][..], |f| f.list.as_slice());
-    let shown = list.iter().map(|s| (s.text.as_slice(), s.logprob));
-    write_line(out, text.get(..typed).unwrap_or(&[]), shown)?;
+    write_line(out, text.get(..typed).unwrap_or(&[]), list)?;
     write_figure(out, "keystroke_cycles", spent)
 }
 
@@ -206,8 +205,7 @@ impl KeyEntry {
         let found = session.keys(self.keys(), &KeyMap::E161, options);
         let spent = cycles().wrapping_sub(start);
         let list = found.as_ref().map_or(&[][..], |f| f.list.as_slice());
-        let shown = list.iter().map(|s| (s.text.as_slice(), s.logprob));
-        write_line(out, self.keys(), shown)?;
+        write_line(out, self.keys(), list)?;
         write_figure(out, "keypress_cycles", spent)
     }
 }

@@ -283,8 +283,7 @@ fn main() -> ! {
                 Err(e) => fail(&mut log, "suggesting", &e, ExitCode::Internal),
             };
             cost.add(found.steps);
-            let list = found.list.iter().map(|s| (s.text.as_slice(), s.logprob));
-            if let Err(e) = write_line(&mut output, typed.get(..len).unwrap_or(&[]), list) {
+            if let Err(e) = write_line(&mut output, typed.get(..len).unwrap_or(&[]), &found.list) {
                 fail(&mut log, "writing suggestions", &e, ExitCode::Io)
             }
         }

@@ -10,6 +10,7 @@
 //! holds a raw tab or newline and can be split on tabs.
 
 use embedded_io::Write;
+use inkling_core::session::Suggestion;
 
 use crate::number_text::hex_u32;
 
@@ -30,17 +31,17 @@ pub fn write_escaped<W: Write>(out: &mut W, bytes: &[u8]) -> Result<(), W::Error
 }
 
 /// Writes one output line: the typed `text`, then each suggestion with its score bits.
-pub fn write_line<'s, W, I>(out: &mut W, text: &[u8], suggestions: I) -> Result<(), W::Error>
-where
-    W: Write,
-    I: IntoIterator<Item = (&'s [u8], f32)>,
-{
+pub fn write_line<W: Write>(
+    out: &mut W,
+    text: &[u8],
+    suggestions: &[Suggestion],
+) -> Result<(), W::Error> {
     write_escaped(out, text)?;
-    for (bytes, score) in suggestions {
+    for s in suggestions {
         out.write_all(b"\t")?;
-        write_escaped(out, bytes)?;
+        write_escaped(out, &s.text)?;
         out.write_all(b"\t")?;
-        out.write_all(&hex_u32(score.to_bits()))?;
+        out.write_all(&hex_u32(s.logprob.to_bits()))?;
     }
     out.write_all(b"\n")
 }
@@ -50,8 +51,15 @@ mod tests {
     use super::*;
 
     fn line(text: &[u8], suggestions: &[(&[u8], f32)]) -> String {
+        let suggestions: Vec<Suggestion> = (suggestions.iter())
+            .map(|&(bytes, logprob)| Suggestion {
+                text: inkling_core::session::Word::from_slice(bytes).unwrap(),
+                logprob,
+                finished: true,
+            })
+            .collect();
         let mut out = Vec::new();
-        write_line(&mut out, text, suggestions.iter().copied()).unwrap();
+        write_line(&mut out, text, &suggestions).unwrap();
         String::from_utf8(out).unwrap()
     }
 
