@@ -256,6 +256,19 @@ fn show(k: &Keystroke) -> String {
     )
 }
 
+/// Every device line equals the host session's line for the same keystroke.
+fn assert_same_lines(device: &[Keystroke], host: &[Keystroke]) {
+    for (i, (device, host)) in device.iter().zip(host).enumerate() {
+        assert_eq!(
+            device,
+            host,
+            "keystroke {i}: firmware {} / host {}",
+            show(device),
+            show(host)
+        );
+    }
+}
+
 #[test]
 fn suggestions_match_the_host_session_bit_for_bit() {
     let run = firmware_run();
@@ -270,17 +283,9 @@ fn suggestions_match_the_host_session_bit_for_bit() {
         lexicon: None,
     };
     let host = host_session_replay(&image, &typed, filter);
-    for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
-        // The design's promise: int8 sums plus libm in a fixed order give the same f32 bits
-        // on the host and on the Cortex-M4F.
-        assert_eq!(
-            device,
-            host,
-            "keystroke {i}: firmware {} / host {}",
-            show(device),
-            show(host)
-        );
-    }
+    // The design's promise: int8 sums plus libm in a fixed order give the same f32 bits on
+    // the host and on the Cortex-M4F.
+    assert_same_lines(&run.keystrokes, &host);
     assert!(
         run.keystrokes
             .iter()
@@ -338,14 +343,8 @@ fn a_lexicon_in_flash_limits_the_words_as_on_the_host() {
     };
     let host = host_session_replay(&image, typed, filter);
     assert_eq!(run.keystrokes.len(), host.len(), "one line per keystroke");
-    for (i, (device, host)) in run.keystrokes.iter().zip(&host).enumerate() {
-        assert_eq!(
-            device,
-            host,
-            "keystroke {i}: firmware {} / host {}",
-            show(device),
-            show(host)
-        );
+    assert_same_lines(&run.keystrokes, &host);
+    for (i, device) in run.keystrokes.iter().enumerate() {
         for (word, _) in &device.suggestions {
             assert!(lexicon.contains(word), "keystroke {i}: {}", show(device));
         }
