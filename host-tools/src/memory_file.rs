@@ -5,6 +5,7 @@ use std::path::{Path, PathBuf};
 
 use inkling_core::user_memory::flash_layout::flash_bytes_needed;
 use inkling_core::user_memory::{FlashStore, RamFlash};
+use inkling_quantize::atomic_file::write_file_atomically;
 
 use crate::error::HostError;
 use crate::keystroke_savings::{HostMemory, MEMORY_PHRASES, MEMORY_WORDS};
@@ -58,7 +59,9 @@ impl MemoryFile {
             store.load(&mut HostMemory::new())?;
             store.save(memory).map(|_| ())
         })?;
-        std::fs::write(&self.path, &self.bytes).map_err(HostError::io(&self.path))
+        // Whole or not at all, like the flash records it holds: a crash mid-write leaves the
+        // file as it was.
+        write_file_atomically(&self.path, &self.bytes).map_err(HostError::io(&self.path))
     }
 
     /// The file's path.
